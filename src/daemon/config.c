@@ -1,0 +1,917 @@
+/*
+ * config: reads latticed.conf into a struct config.
+ *
+ * inih does the INI syntax.  It is fed through our own line reader so we
+ * know the line of every value (Debian builds inih without handler line
+ * numbers), can see section headers (to reject unknown ones even when
+ * empty) and can refuse over-long lines instead of letting inih split
+ * them.  Values are collected first and interpreted afterwards, so an
+ * indented continuation line (which inih reports as a repeat of the same
+ * key) can be joined to its value, and a repeated key can be told apart
+ * from a continuation.
+ *
+ * Defaults are written as text in the key table and parsed by the same
+ * code as the file, so the documented default and the applied default
+ * cannot drift apart.
+ */
+#include "config.h"
+
+#include <errno.h>
+#include <ini.h>
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "latticed/ratio.h"
+
+#define CONFIG_FILE_MAX (1 << 20)
+#define ENTRY_VALUE_MAX 4096
+#define ENTRY_MAX 512
+
+enum key_kind {
+	K_SEEDS, K_CHOOSE, K_PERIOD, K_UNISON,
+	K_ROOT_KEY, K_ROOT_HZ,
+	K_LAYOUT, K_MAP, K_TRANSPOSE,
+	K_METHOD, K_CHANNELS, K_BEND_RANGE,
+};
+
+struct key_def {
+	struct config_key_info info;
+	enum key_kind kind;
+};
+
+static const struct key_def key_table[] = {
+	{{"lattice", "seeds", "1 3 5 7",
+	  "2 to 12 positive whole numbers or ratios separated by spaces, e.g. 1 3 5 7 or 1 9/8 5"}, K_SEEDS},
+	{{"lattice", "choose", "2",
+	  "a whole number from 1 to one less than the number of seeds"}, K_CHOOSE},
+	{{"lattice", "period", "2/1",
+	  "a ratio above 1, e.g. 2/1 (octave) or 3/1 (tritave)"}, K_PERIOD},
+	{{"lattice", "unison", "none",
+	  "none, or a tone of the set named by its seeds, e.g. 1.3"}, K_UNISON},
+	{{"pitch", "root_key", "57",
+	  "a key number from 0 to 127"}, K_ROOT_KEY},
+	{{"pitch", "root_hz", "220",
+	  "a frequency in Hz from 1 to 20000"}, K_ROOT_HZ},
+	{{"keys", "layout", "sequential",
+	  "sequential, nearest or table"}, K_LAYOUT},
+	{{"keys", "map", "",
+	  "slots separated by spaces: a tone index or label, optionally followed by +N or -N periods, or . for a silent key"}, K_MAP},
+	{{"keys", "transpose", "0",
+	  "whole keys from -127 to 127"}, K_TRANSPOSE},
+	{{"output", "method", "bend",
+	  "bend, mts or mpe"}, K_METHOD},
+	{{"output", "channels", "2-16",
+	  "MIDI channels 1 to 16 as numbers and ranges, e.g. 2-16 or 1,3,5-8 (a range skips channel 10)"}, K_CHANNELS},
+	{{"output", "bend_range", "2",
+	  "whole semitones from 1 to 96"}, K_BEND_RANGE},
+};
+#define KEY_COUNT ((int)(sizeof key_table / sizeof key_table[0]))
+
+int config_key_count(void)
+{
+	return KEY_COUNT;
+}
+
+const struct config_key_info *config_key_at(int index)
+{
+	return index >= 0 && index < KEY_COUNT ? &key_table[index].info : NULL;
+}
+
+const char *output_method_name(enum output_method method)
+{
+	switch (method) {
+	case OUTPUT_BEND:
+		return "bend";
+	case OUTPUT_MTS:
+		return "mts";
+	case OUTPUT_MPE:
+		return "mpe";
+	}
+	return "?";
+}
+
+/* ---- report ------------------------------------------------------------ */
+
+static void report_add(struct config_report *r, bool is_error,
+		       const char *path, int line, const char *fmt, ...)
+	__attribute__((format(printf, 5, 6)));
+
+static void report_add(struct config_report *r, bool is_error,
+		       const char *path, int line, const char *fmt, ...)
+{
+	if (!r)
+		return;
+	if (is_error)
+		r->error_count++;
+	else
+		r->warning_count++;
+	char body[CORE_ERROR_TEXT_MAX + 256];
+	va_list ap;
+	va_start(ap, fmt);
+	vsnprintf(body, sizeof body, fmt, ap);
+	va_end(ap);
+	size_t room = sizeof r->text - r->length;
+	if (room < 2)
+		return;
+	int n;
+	if (line > 0)
+		n = snprintf(r->text + r->length, room, "%s:%d: %s%s\n", path,
+			     line, is_error ? "" : "warning: ", body);
+	else
+		n = snprintf(r->text + r->length, room, "%s: %s%s\n", path,
+			     is_error ? "" : "warning: ", body);
+	if (n > 0)
+		r->length += (size_t)n < room ? (size_t)n : room - 1;
+}
+
+/* ---- pass 1: collect entries through inih ------------------------------ */
+
+struct entry {
+	char section[64];
+	char key[64];
+	char value[ENTRY_VALUE_MAX];
+	int line;
+	bool in_known_section;
+};
+
+struct collector {
+	const char *cursor, *end;
+	const char *path;
+	int line;                 /* line number of the line last handed to inih */
+	bool line_indented;
+	bool section_known;
+	int entry_count;
+	struct entry *entries;
+	struct config_report *report;
+	int errors;
+};
+
+static bool section_is_known(const char *name)
+{
+	if (strcmp(name, "lattice") == 0 || strcmp(name, "pitch") == 0 ||
+	    strcmp(name, "keys") == 0)
+		return true;
+	return strncmp(name, "output", 6) == 0 &&
+	       (name[6] == '\0' || name[6] == ' ' || name[6] == '\t');
+}
+
+static void trim(char *s)
+{
+	size_t len = strlen(s);
+	while (len > 0 && (s[len - 1] == ' ' || s[len - 1] == '\t' ||
+			   s[len - 1] == '\r' || s[len - 1] == '\n'))
+		s[--len] = '\0';
+	size_t start = 0;
+	while (s[start] == ' ' || s[start] == '\t')
+		start++;
+	if (start)
+		memmove(s, s + start, len - start + 1);
+}
+
+static struct entry *new_entry(struct collector *c)
+{
+	if (c->entry_count >= ENTRY_MAX) {
+		report_add(c->report, true, c->path, c->line,
+			   "more than %d settings, expected a config file", ENTRY_MAX);
+		c->errors++;
+		return NULL;
+	}
+	struct entry *e = &c->entries[c->entry_count++];
+	memset(e, 0, sizeof *e);
+	e->line = c->line;
+	return e;
+}
+
+/*
+ * Looks at a raw line before inih does, to check [section] headers and
+ * record them as entries with an empty key (so an [output NAME] section
+ * with no keys still creates its output).
+ */
+static void inspect_section_line(struct collector *c, const char *line)
+{
+	const char *p = line;
+	while (*p == ' ' || *p == '\t')
+		p++;
+	if (*p != '[')
+		return;
+	const char *close = strchr(p, ']');
+	if (!close)
+		return; /* inih reports the syntax error */
+	char name[64];
+	size_t len = (size_t)(close - p - 1);
+	if (len >= sizeof name)
+		len = sizeof name - 1;
+	memcpy(name, p + 1, len);
+	name[len] = '\0';
+	trim(name);
+	c->section_known = section_is_known(name);
+	if (!c->section_known) {
+		report_add(c->report, true, c->path, c->line,
+			   "unknown section [%s], expected [lattice], [pitch], [keys] or [output NAME]",
+			   name);
+		c->errors++;
+		return;
+	}
+	struct entry *e = new_entry(c);
+	if (!e)
+		return;
+	snprintf(e->section, sizeof e->section, "%s", name);
+	e->in_known_section = true;
+}
+
+static char *read_line(char *str, int num, void *stream)
+{
+	struct collector *c = stream;
+	if (c->cursor >= c->end)
+		return NULL;
+	const char *nl = memchr(c->cursor, '\n', (size_t)(c->end - c->cursor));
+	const char *stop = nl ? nl + 1 : c->end;
+	size_t len = (size_t)(stop - c->cursor);
+	c->line++;
+	if (len > (size_t)num - 1) {
+		report_add(c->report, true, c->path, c->line,
+			   "line is %zu characters long, expected at most %d; continue a long value on indented lines",
+			   len - (nl ? 1 : 0), num - 2);
+		c->errors++;
+		/* hand inih an empty line in its place so numbering stays right */
+		str[0] = '\n';
+		str[1] = '\0';
+		c->cursor = stop;
+		c->line_indented = false;
+		return str;
+	}
+	memcpy(str, c->cursor, len);
+	str[len] = '\0';
+	if (memchr(str, '\0', len) != NULL) {
+		report_add(c->report, true, c->path, c->line,
+			   "line contains a NUL byte, expected text");
+		c->errors++;
+		str[0] = '\n';
+		str[1] = '\0';
+	}
+	c->cursor = stop;
+	c->line_indented = (str[0] == ' ' || str[0] == '\t');
+	inspect_section_line(c, str);
+	return str;
+}
+
+static int collect(void *user, const char *section, const char *name,
+		   const char *value)
+{
+	struct collector *c = user;
+	struct entry *prev = c->entry_count > 0 ? &c->entries[c->entry_count - 1] : NULL;
+	if (c->line_indented && prev && strcmp(prev->key, name) == 0 &&
+	    strcmp(prev->section, section) == 0) {
+		size_t used = strlen(prev->value);
+		if (used + 1 + strlen(value) >= sizeof prev->value) {
+			report_add(c->report, true, c->path, c->line,
+				   "value of '%s' is longer than %d characters",
+				   name, ENTRY_VALUE_MAX - 1);
+			c->errors++;
+			return 1;
+		}
+		snprintf(prev->value + used, sizeof prev->value - used, " %s", value);
+		return 1;
+	}
+	struct entry *e = new_entry(c);
+	if (!e)
+		return 1;
+	snprintf(e->section, sizeof e->section, "%s", section);
+	snprintf(e->key, sizeof e->key, "%s", name);
+	snprintf(e->value, sizeof e->value, "%s", value);
+	e->in_known_section = c->section_known;
+	return 1;
+}
+
+/* ---- pass 2: interpret values ------------------------------------------ */
+
+struct interp {
+	const char *path;
+	struct config *cfg;
+	struct config_report *report;
+	int errors;
+};
+
+static void fail(struct interp *in, int line, const char *fmt, ...)
+	__attribute__((format(printf, 3, 4)));
+
+static void fail(struct interp *in, int line, const char *fmt, ...)
+{
+	char body[CORE_ERROR_TEXT_MAX + 128];
+	va_list ap;
+	va_start(ap, fmt);
+	vsnprintf(body, sizeof body, fmt, ap);
+	va_end(ap);
+	report_add(in->report, true, in->path, line, "%s", body);
+	in->errors++;
+}
+
+static bool parse_int(const char *text, long lo, long hi, long *out)
+{
+	char *end;
+	errno = 0;
+	long v = strtol(text, &end, 10);
+	if (errno || end == text || *end != '\0' || v < lo || v > hi)
+		return false;
+	*out = v;
+	return true;
+}
+
+static bool parse_real(const char *text, double lo, double hi, double *out)
+{
+	char *end;
+	errno = 0;
+	double v = strtod(text, &end);
+	if (errno || end == text || *end != '\0' || !isfinite(v) || v < lo || v > hi)
+		return false;
+	*out = v;
+	return true;
+}
+
+/* Splits on spaces, tabs and commas; returns the number of words. */
+static int split_words(char *text, char **words, int max)
+{
+	int n = 0;
+	char *save = NULL;
+	for (char *w = strtok_r(text, " \t,", &save); w; w = strtok_r(NULL, " \t,", &save)) {
+		if (n == max)
+			return max + 1;
+		words[n++] = w;
+	}
+	return n;
+}
+
+static bool parse_seeds(struct interp *in, const struct entry *e,
+			struct lattice_spec *spec)
+{
+	char buf[ENTRY_VALUE_MAX];
+	char *words[LATTICE_MAX_SEEDS + 1];
+	snprintf(buf, sizeof buf, "%s", e->value);
+	int n = split_words(buf, words, LATTICE_MAX_SEEDS);
+	if (n < 2 || n > LATTICE_MAX_SEEDS) {
+		fail(in, e->line, "seeds has %s%d values, expected 2 to %d positive whole numbers or ratios, e.g. 1 3 5 7",
+		     n > LATTICE_MAX_SEEDS ? "more than " : "",
+		     n > LATTICE_MAX_SEEDS ? LATTICE_MAX_SEEDS : n, LATTICE_MAX_SEEDS);
+		return false;
+	}
+	for (int i = 0; i < n; i++) {
+		if (strlen(words[i]) >= LATTICE_SEED_TEXT_MAX ||
+		    !ratio_parse(words[i], &spec->seeds[i])) {
+			fail(in, e->line, "seed '%s' is not a positive whole number or ratio, expected e.g. 7 or 9/8",
+			     words[i]);
+			return false;
+		}
+		/* labels show the seed in lowest terms, as a whole number when it is one */
+		if (spec->seeds[i].den == 1)
+			snprintf(spec->seed_text[i], sizeof spec->seed_text[i], "%lld",
+				 (long long)spec->seeds[i].num);
+		else
+			ratio_format(spec->seeds[i], spec->seed_text[i],
+				     sizeof spec->seed_text[i]);
+	}
+	spec->seed_count = n;
+	return true;
+}
+
+static bool parse_channels(const char *text, uint16_t *out)
+{
+	char buf[ENTRY_VALUE_MAX];
+	char *words[64];
+	snprintf(buf, sizeof buf, "%s", text);
+	int n = split_words(buf, words, 63);
+	if (n < 1 || n > 63)
+		return false;
+	uint16_t mask = 0;
+	for (int i = 0; i < n; i++) {
+		char *dash = strchr(words[i], '-');
+		long lo, hi;
+		if (dash) {
+			*dash = '\0';
+			if (!parse_int(words[i], 1, 16, &lo) ||
+			    !parse_int(dash + 1, 1, 16, &hi) || hi < lo)
+				return false;
+			for (long ch = lo; ch <= hi; ch++)
+				if (ch != 10) /* GM drums: only when named on its own */
+					mask |= (uint16_t)(1u << (ch - 1));
+		} else {
+			if (!parse_int(words[i], 1, 16, &lo))
+				return false;
+			mask |= (uint16_t)(1u << (lo - 1));
+		}
+	}
+	if (mask == 0)
+		return false;
+	*out = mask;
+	return true;
+}
+
+char *config_format_channels(uint16_t channels, char *buf, size_t size)
+{
+	size_t used = 0;
+	buf[0] = '\0';
+	for (int ch = 1; ch <= 16; ch++) {
+		if (!(channels & (1u << (ch - 1))))
+			continue;
+		int last = ch;
+		while (last < 16 && (channels & (1u << last)))
+			last++;
+		int n = last == ch ? snprintf(buf + used, size - used, "%s%d",
+					       used ? "," : "", ch)
+				   : snprintf(buf + used, size - used, "%s%d-%d",
+					       used ? "," : "", ch, last);
+		if (n < 0 || (size_t)n >= size - used)
+			break;
+		used += (size_t)n;
+		ch = last;
+	}
+	return buf;
+}
+
+static struct output_config *output_named(struct config *cfg, const char *name)
+{
+	for (int i = 0; i < cfg->output_count; i++)
+		if (strcmp(cfg->outputs[i].name, name) == 0)
+			return &cfg->outputs[i];
+	return NULL;
+}
+
+static void output_defaults(struct output_config *out);
+
+static bool valid_port_name(const char *name)
+{
+	if (name[0] == '\0' || strlen(name) >= CONFIG_NAME_MAX)
+		return false;
+	for (const char *p = name; *p; p++) {
+		char ch = *p;
+		if (!((ch >= 'a' && ch <= 'z') || (ch >= 'A' && ch <= 'Z') ||
+		      (ch >= '0' && ch <= '9') || ch == '-' || ch == '_'))
+			return false;
+	}
+	return true;
+}
+
+/* The output an [output NAME] entry belongs to, created on first use. */
+static struct output_config *output_for(struct interp *in, const struct entry *e)
+{
+	char name[64];
+	snprintf(name, sizeof name, "%s", e->section + 6);
+	trim(name);
+	struct output_config *o = output_named(in->cfg, name);
+	if (o)
+		return o;
+	/* report a bad section once, at its header, not at each of its keys */
+	bool at_header = e->key[0] == '\0';
+	if (name[0] == '\0') {
+		if (at_header)
+			fail(in, e->line, "[output] has no name, expected [output NAME], e.g. [output synth]");
+		return NULL;
+	}
+	if (!valid_port_name(name)) {
+		if (at_header)
+			fail(in, e->line, "output name '%s' is not usable as a port name, expected 1 to %d letters, digits, '-' or '_'",
+			     name, CONFIG_NAME_MAX - 1);
+		return NULL;
+	}
+	if (in->cfg->output_count >= CONFIG_MAX_OUTPUTS) {
+		if (at_header)
+			fail(in, e->line, "more than %d outputs, expected at most %d [output NAME] sections",
+			     CONFIG_MAX_OUTPUTS, CONFIG_MAX_OUTPUTS);
+		return NULL;
+	}
+	o = &in->cfg->outputs[in->cfg->output_count++];
+	output_defaults(o);
+	snprintf(o->name, sizeof o->name, "%s", name);
+	o->line = e->line;
+	return o;
+}
+
+static const struct key_def *find_key(const char *section, const char *key)
+{
+	const char *family = strncmp(section, "output", 6) == 0 ? "output" : section;
+	for (int i = 0; i < KEY_COUNT; i++)
+		if (strcmp(key_table[i].info.section, family) == 0 &&
+		    strcmp(key_table[i].info.key, key) == 0)
+			return &key_table[i];
+	return NULL;
+}
+
+static void list_keys_of(const char *family, char *buf, size_t size)
+{
+	size_t used = 0;
+	buf[0] = '\0';
+	for (int i = 0; i < KEY_COUNT; i++) {
+		if (strcmp(key_table[i].info.section, family) != 0)
+			continue;
+		int n = snprintf(buf + used, size - used, "%s%s", used ? ", " : "",
+				 key_table[i].info.key);
+		if (n < 0 || (size_t)n >= size - used)
+			break;
+		used += (size_t)n;
+	}
+}
+
+/* Stores one value; line 0 means a default being applied. */
+static void apply(struct interp *in, const struct key_def *def,
+		  const struct entry *e, struct output_config *out)
+{
+	struct tuning_config *t = &in->cfg->tuning;
+	const char *v = e->value;
+	long n;
+	double x;
+	struct ratio r;
+	switch (def->kind) {
+	case K_SEEDS:
+		if (parse_seeds(in, e, &t->lattice))
+			t->lines.seeds = e->line;
+		return;
+	case K_CHOOSE:
+		if (!parse_int(v, 1, LATTICE_MAX_SEEDS - 1, &n)) {
+			fail(in, e->line, "choose is '%s', expected %s", v, def->info.expected);
+			return;
+		}
+		t->lattice.choose = (int)n;
+		t->lines.choose = e->line;
+		return;
+	case K_PERIOD:
+		if (!ratio_parse(v, &r) || r.num <= r.den) {
+			fail(in, e->line, "period is '%s', expected %s", v, def->info.expected);
+			return;
+		}
+		t->lattice.period = r;
+		t->lines.period = e->line;
+		return;
+	case K_UNISON:
+		if (strlen(v) >= sizeof t->unison_text) {
+			fail(in, e->line, "unison is too long, expected %s", def->info.expected);
+			return;
+		}
+		snprintf(t->unison_text, sizeof t->unison_text, "%s",
+			 strcmp(v, "none") == 0 ? "" : v);
+		t->lines.unison = e->line;
+		return;
+	case K_ROOT_KEY:
+		if (!parse_int(v, 0, 127, &n)) {
+			fail(in, e->line, "root_key is '%s', expected %s", v, def->info.expected);
+			return;
+		}
+		t->keys.root_key = (int)n;
+		t->lines.root_key = e->line;
+		return;
+	case K_ROOT_HZ:
+		if (!parse_real(v, 1.0, 20000.0, &x)) {
+			fail(in, e->line, "root_hz is '%s', expected %s", v, def->info.expected);
+			return;
+		}
+		t->keys.root_hz = x;
+		t->lines.root_hz = e->line;
+		return;
+	case K_LAYOUT:
+		if (strcmp(v, "sequential") == 0)
+			t->keys.layout = KEY_LAYOUT_SEQUENTIAL;
+		else if (strcmp(v, "nearest") == 0)
+			t->keys.layout = KEY_LAYOUT_NEAREST;
+		else if (strcmp(v, "table") == 0)
+			t->keys.layout = KEY_LAYOUT_TABLE;
+		else {
+			fail(in, e->line, "layout is '%s', expected %s", v, def->info.expected);
+			return;
+		}
+		t->lines.layout = e->line;
+		return;
+	case K_MAP:
+		if (strlen(v) >= sizeof t->map_text) {
+			fail(in, e->line, "map is longer than %d characters, expected at most %d slots",
+			     CONFIG_MAP_TEXT_MAX - 1, KEYMAP_TABLE_MAX);
+			return;
+		}
+		snprintf(t->map_text, sizeof t->map_text, "%s", v);
+		t->lines.map = e->line;
+		return;
+	case K_TRANSPOSE:
+		if (!parse_int(v, -127, 127, &n)) {
+			fail(in, e->line, "transpose is '%s', expected %s", v, def->info.expected);
+			return;
+		}
+		t->keys.transpose = (int)n;
+		t->lines.transpose = e->line;
+		return;
+	case K_METHOD:
+		if (strcmp(v, "bend") == 0)
+			out->method = OUTPUT_BEND;
+		else if (strcmp(v, "mts") == 0)
+			out->method = OUTPUT_MTS;
+		else if (strcmp(v, "mpe") == 0)
+			out->method = OUTPUT_MPE;
+		else
+			fail(in, e->line, "method is '%s', expected %s", v, def->info.expected);
+		return;
+	case K_CHANNELS:
+		if (!parse_channels(v, &out->channels))
+			fail(in, e->line, "channels is '%s', expected %s", v, def->info.expected);
+		return;
+	case K_BEND_RANGE:
+		if (!parse_int(v, 1, 96, &n)) {
+			fail(in, e->line, "bend_range is '%s', expected %s", v, def->info.expected);
+			return;
+		}
+		out->bend_range = (int)n;
+		return;
+	}
+}
+
+static void apply_default(struct interp *in, const char *family,
+			  struct output_config *out)
+{
+	for (int i = 0; i < KEY_COUNT; i++) {
+		const struct key_def *def = &key_table[i];
+		if (strcmp(def->info.section, family) != 0 || def->kind == K_MAP)
+			continue;
+		struct entry e;
+		memset(&e, 0, sizeof e);
+		snprintf(e.value, sizeof e.value, "%s", def->info.default_text);
+		apply(in, def, &e, out);
+	}
+}
+
+static void output_defaults(struct output_config *out)
+{
+	struct config scratch;
+	struct interp in = {.path = "(defaults)", .cfg = &scratch};
+	memset(out, 0, sizeof *out);
+	apply_default(&in, "output", out);
+}
+
+void config_defaults(struct config *out)
+{
+	struct interp in = {.path = "(defaults)", .cfg = out};
+	memset(out, 0, sizeof *out);
+	snprintf(out->path, sizeof out->path, "(built-in defaults)");
+	apply_default(&in, "lattice", NULL);
+	apply_default(&in, "pitch", NULL);
+	apply_default(&in, "keys", NULL);
+	out->output_count = 1;
+	output_defaults(&out->outputs[0]);
+	snprintf(out->outputs[0].name, sizeof out->outputs[0].name, "synth");
+}
+
+static void interpret(struct interp *in, const struct entry *entries, int index)
+{
+	const struct entry *e = &entries[index];
+	if (!e->in_known_section)
+		return; /* the section header was already reported */
+	bool is_output = strncmp(e->section, "output", 6) == 0;
+	if (e->key[0] == '\0') {
+		if (is_output)
+			(void)output_for(in, e);
+		return;
+	}
+	const struct key_def *def = find_key(e->section, e->key);
+	const char *family = is_output ? "output" : e->section;
+	if (!def) {
+		char known[256];
+		list_keys_of(family, known, sizeof known);
+		fail(in, e->line, "unknown key '%s' in [%s], expected one of: %s",
+		     e->key, e->section, known);
+		return;
+	}
+	for (int j = 0; j < index; j++) {
+		if (strcmp(entries[j].key, e->key) == 0 &&
+		    strcmp(entries[j].section, e->section) == 0) {
+			fail(in, e->line, "'%s' is already set on line %d, expected each key once per section",
+			     e->key, entries[j].line);
+			return;
+		}
+	}
+	struct output_config *out = NULL;
+	if (is_output) {
+		out = output_for(in, e);
+		if (!out)
+			return;
+	}
+	apply(in, def, e, out);
+}
+
+bool config_parse(const char *text, size_t length, const char *path,
+		  struct config *out, struct config_report *report)
+{
+	if (report)
+		memset(report, 0, sizeof *report);
+	if (length > CONFIG_FILE_MAX) {
+		report_add(report, true, path, 0,
+			   "file is %zu bytes, expected a config of at most %d bytes",
+			   length, CONFIG_FILE_MAX);
+		return false;
+	}
+	struct config *cfg = malloc(sizeof *cfg);
+	struct entry *entries = calloc(ENTRY_MAX, sizeof *entries);
+	if (!cfg || !entries) {
+		free(cfg);
+		free(entries);
+		report_add(report, true, path, 0, "out of memory reading the config");
+		return false;
+	}
+
+	struct collector col = {
+		.cursor = text, .end = text + length, .path = path,
+		.section_known = true, .entries = entries, .report = report,
+	};
+	int syntax_line = ini_parse_stream(read_line, &col, collect, &col);
+	if (syntax_line > 0)
+		report_add(report, true, path, syntax_line,
+			   "cannot read this line, expected '[section]', 'key = value' or a '; comment'");
+	else if (syntax_line < 0)
+		report_add(report, true, path, 0, "out of memory reading the config");
+
+	config_defaults(cfg);
+	snprintf(cfg->path, sizeof cfg->path, "%s", path);
+	cfg->output_count = 0;
+
+	struct interp in = {.path = path, .cfg = cfg, .report = report};
+	for (int i = 0; i < col.entry_count; i++)
+		interpret(&in, entries, i);
+
+	if (cfg->output_count == 0) {
+		/* no [output] section: one bend output named "synth" */
+		cfg->output_count = 1;
+		output_defaults(&cfg->outputs[0]);
+		snprintf(cfg->outputs[0].name, sizeof cfg->outputs[0].name, "synth");
+	}
+	if (cfg->tuning.lines.map && cfg->tuning.keys.layout != KEY_LAYOUT_TABLE)
+		report_add(report, false, path, cfg->tuning.lines.map,
+			   "map is set but layout is %s; the map is used only with layout = table",
+			   key_layout_name(cfg->tuning.keys.layout));
+
+	bool ok = col.errors == 0 && in.errors == 0 && syntax_line == 0;
+	if (ok)
+		*out = *cfg;
+	free(entries);
+	free(cfg);
+	return ok;
+}
+
+bool config_load(const char *path, struct config *out,
+		 struct config_report *report)
+{
+	if (report)
+		memset(report, 0, sizeof *report);
+	FILE *f = fopen(path, "rb");
+	if (!f) {
+		report_add(report, true, path, 0, "cannot open: %s", strerror(errno));
+		return false;
+	}
+	char *buf = malloc(CONFIG_FILE_MAX + 1);
+	if (!buf) {
+		fclose(f);
+		report_add(report, true, path, 0, "out of memory reading the config");
+		return false;
+	}
+	size_t n = fread(buf, 1, CONFIG_FILE_MAX + 1, f);
+	bool read_error = ferror(f);
+	int saved = errno;
+	fclose(f);
+	if (read_error) {
+		free(buf);
+		report_add(report, true, path, 0, "cannot read: %s", strerror(saved));
+		return false;
+	}
+	bool ok = config_parse(buf, n, path, out, report);
+	free(buf);
+	return ok;
+}
+
+/* ---- building the tuning ----------------------------------------------- */
+
+static int line_of_field(const struct tuning_lines *lines, const char *field)
+{
+	if (strcmp(field, "seeds") == 0)
+		return lines->seeds;
+	if (strcmp(field, "choose") == 0)
+		return lines->choose ? lines->choose : lines->seeds;
+	if (strcmp(field, "period") == 0)
+		return lines->period;
+	if (strcmp(field, "unison") == 0)
+		return lines->unison;
+	if (strcmp(field, "root_key") == 0)
+		return lines->root_key;
+	if (strcmp(field, "root_hz") == 0)
+		return lines->root_hz;
+	if (strcmp(field, "layout") == 0)
+		return lines->layout;
+	if (strcmp(field, "map") == 0)
+		return lines->map;
+	return 0;
+}
+
+/* One map slot: ".", "-", a tone index or label, optionally "+N"/"-N". */
+static bool parse_slot(const struct lattice *lat, const char *word,
+		       struct keymap_slot *slot, char *why, size_t why_size)
+{
+	if (strcmp(word, ".") == 0 || strcmp(word, "-") == 0) {
+		slot->tone = KEYMAP_SLOT_SILENT;
+		slot->period_shift = 0;
+		return true;
+	}
+	char name[LATTICE_LABEL_MAX];
+	snprintf(name, sizeof name, "%s", word);
+	long shift = 0;
+	char *sign = strpbrk(name, "+-");
+	if (sign) {
+		char *end;
+		errno = 0;
+		shift = strtol(sign, &end, 10);
+		if (errno || *end != '\0' || end == sign + 1 || shift < -64 || shift > 64) {
+			snprintf(why, why_size, "'%s' has a bad period shift, expected e.g. 3+1 or 1.5-1", word);
+			return false;
+		}
+		*sign = '\0';
+	}
+	long index;
+	if (parse_int(name, 0, 32767, &index)) {
+		if (index >= lat->tone_count) {
+			snprintf(why, why_size, "slot '%s' names tone %ld, expected a tone from 0 to %d",
+				 word, index, lat->tone_count - 1);
+			return false;
+		}
+	} else {
+		index = lattice_find_tone(lat, name);
+		if (index < 0) {
+			snprintf(why, why_size, "slot '%s' names no tone of the set, expected a tone index, a label such as 1.3, or . for silence",
+				 word);
+			return false;
+		}
+	}
+	slot->tone = (int16_t)index;
+	slot->period_shift = (int16_t)shift;
+	return true;
+}
+
+bool config_build_tuning(const struct config *cfg, struct tuning *out,
+			 struct config_report *report)
+{
+	if (report)
+		memset(report, 0, sizeof *report);
+	const struct tuning_config *t = &cfg->tuning;
+	struct lattice_spec spec = t->lattice;
+	struct core_error err;
+
+	if (t->unison_text[0]) {
+		if (!lattice_parse_label(&spec, t->unison_text, &spec.unison_seeds)) {
+			report_add(report, true, cfg->path, t->lines.unison,
+				   "unison '%s' names a seed that is not in seeds, expected %d seeds joined by '.', e.g. 1.3",
+				   t->unison_text, spec.choose);
+			return false;
+		}
+		spec.has_unison = true;
+	}
+	if (!lattice_build(&out->lattice, &spec, &err)) {
+		report_add(report, true, cfg->path, line_of_field(&t->lines, err.field),
+			   "%s", err.text);
+		return false;
+	}
+	char a[LATTICE_LABEL_MAX], b[LATTICE_LABEL_MAX], rt[RATIO_TEXT_MAX];
+	for (int i = 0; i < out->lattice.merge_count; i++) {
+		const struct lattice_merge *m = &out->lattice.merges[i];
+		const struct tone *tone = &out->lattice.tones[m->tone];
+		report_add(report, false, cfg->path, t->lines.seeds,
+			   "products %s and %s are the same tone %s; merged into one",
+			   lattice_label(&spec, tone->seeds, a, sizeof a),
+			   lattice_label(&spec, m->seeds, b, sizeof b),
+			   ratio_format(tone->ratio, rt, sizeof rt));
+	}
+
+	struct keymap_spec keys = t->keys;
+	if (keys.layout == KEY_LAYOUT_TABLE) {
+		if (!t->map_text[0]) {
+			report_add(report, true, cfg->path, t->lines.layout,
+				   "layout = table needs a map in [keys], expected e.g. map = 0 1 . 2 3 4 5");
+			return false;
+		}
+		char buf[CONFIG_MAP_TEXT_MAX];
+		char *words[KEYMAP_TABLE_MAX + 1];
+		snprintf(buf, sizeof buf, "%s", t->map_text);
+		int n = split_words(buf, words, KEYMAP_TABLE_MAX);
+		if (n > KEYMAP_TABLE_MAX) {
+			report_add(report, true, cfg->path, t->lines.map,
+				   "map has more than %d slots, expected at most %d",
+				   KEYMAP_TABLE_MAX, KEYMAP_TABLE_MAX);
+			return false;
+		}
+		for (int i = 0; i < n; i++) {
+			char why[CORE_ERROR_TEXT_MAX];
+			if (!parse_slot(&out->lattice, words[i], &keys.table[i], why, sizeof why)) {
+				report_add(report, true, cfg->path, t->lines.map, "%s", why);
+				return false;
+			}
+		}
+		keys.table_length = n;
+	}
+	if (!keymap_build(&out->keymap, &out->lattice, &keys, &err)) {
+		report_add(report, true, cfg->path, line_of_field(&t->lines, err.field),
+			   "%s", err.text);
+		return false;
+	}
+	return true;
+}

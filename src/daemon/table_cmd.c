@@ -1,0 +1,332 @@
+/*
+ * table_cmd: prints a built tuning for people (aligned text) or programs
+ * (one JSON object, written with json-c).
+ *
+ * The text form is read on a laptop before a show: what each key plays,
+ * how far it sits from the 12-TET key it goes out on, and the bend or MTS
+ * word each output will send.  Keys that play nothing are summarised as
+ * ranges instead of filling the screen.
+ */
+#include "table_cmd.h"
+
+#include <json-c/json.h>
+#include <stdio.h>
+#include <string.h>
+
+#include "latticed/pitch.h"
+
+static const char *const note_names[12] = {
+	"C", "C#", "D", "D#", "E", "F", "F#", "G", "G#", "A", "A#", "B",
+};
+
+/* "A3": key 60 is C4, the scientific-pitch convention (69 = A4 = 440 Hz). */
+static char *key_name(int key, char *buf, size_t size)
+{
+	snprintf(buf, size, "%s%d", note_names[key % 12], key / 12 - 1);
+	return buf;
+}
+
+static bool output_uses_bend(const struct output_config *o)
+{
+	return o->method == OUTPUT_BEND || o->method == OUTPUT_MPE;
+}
+
+static void print_seeds(FILE *f, const struct lattice_spec *spec)
+{
+	for (int i = 0; i < spec->seed_count; i++)
+		fprintf(f, "%s%s", i ? " " : "", spec->seed_text[i]);
+}
+
+static void print_key_ranges(FILE *f, const struct keymap *map,
+			     enum key_state state, const char *what)
+{
+	int printed = 0;
+	for (int k = 0; k < KEYMAP_KEYS; k++) {
+		if (map->keys[k].state != state)
+			continue;
+		int last = k;
+		while (last + 1 < KEYMAP_KEYS && map->keys[last + 1].state == state)
+			last++;
+		if (printed == 0)
+			fprintf(f, "  %s: ", what);
+		if (last == k)
+			fprintf(f, "%s%d", printed ? ", " : "", k);
+		else
+			fprintf(f, "%s%d-%d", printed ? ", " : "", k, last);
+		printed++;
+		k = last;
+	}
+	if (printed)
+		fputc('\n', f);
+}
+
+void table_print_text(FILE *f, const struct config *cfg, const struct tuning *t)
+{
+	const struct lattice *lat = &t->lattice;
+	const struct lattice_spec *spec = &lat->spec;
+	const struct keymap *map = &t->keymap;
+	const struct keymap_spec *keys = &cfg->tuning.keys;
+	char label[LATTICE_LABEL_MAX], text[RATIO_TEXT_MAX], name[8];
+
+	fprintf(f, "config   %s\n", cfg->path);
+	fprintf(f, "lattice  %d of %d seeds (", spec->choose, spec->seed_count);
+	print_seeds(f, spec);
+	fprintf(f, "), period %s, ", ratio_format(spec->period, text, sizeof text));
+	if (spec->has_unison)
+		fprintf(f, "%s is 1/1\n", lattice_label(spec, spec->unison_seeds, label, sizeof label));
+	else
+		fprintf(f, "1/1 is the reference pitch\n");
+	fprintf(f, "         %d tones, %d harmonic and %d subharmonic chords\n",
+		lat->tone_count, lat->harmonic_count,
+		lat->chord_count - lat->harmonic_count);
+
+	int label_width = 5;
+	for (int i = 0; i < lat->tone_count; i++) {
+		int w = (int)strlen(lattice_label(spec, lat->tones[i].seeds, label, sizeof label));
+		if (w > label_width)
+			label_width = w;
+	}
+
+	fprintf(f, "\ntones\n  %4s  %-*s  %13s  %9s\n", "tone", label_width, "seeds",
+		"ratio", "cents");
+	for (int i = 0; i < lat->tone_count; i++) {
+		const struct tone *tone = &lat->tones[i];
+		fprintf(f, "  %4d  %-*s  %13s  %9.3f", i, label_width,
+			lattice_label(spec, tone->seeds, label, sizeof label),
+			ratio_format(tone->ratio, text, sizeof text), tone->cents);
+		if (tone->merged_count)
+			fprintf(f, "  (+%d merged)", tone->merged_count);
+		fputc('\n', f);
+	}
+
+	int widest_chord = 0;
+	for (int c = 0; c < lat->chord_count; c++)
+		if (lat->chords[c].tone_count > widest_chord)
+			widest_chord = lat->chords[c].tone_count;
+	int tones_width = widest_chord * (label_width + 1);
+	fprintf(f, "\nchords\n  %-11s  %-*s  %-*s  %s\n", "kind", label_width + 2,
+		"seeds", tones_width, "tones", "proportion");
+	for (int c = 0; c < lat->chord_count; c++) {
+		const struct chord *ch = &lat->chords[c];
+		char tones[LATTICE_MAX_CHORD_TONES * (LATTICE_LABEL_MAX + 1)] = "";
+		size_t used = 0;
+		for (int i = 0; i < ch->tone_count; i++) {
+			char member[LATTICE_LABEL_MAX];
+			int n = snprintf(tones + used, sizeof tones - used, "%s%s",
+					 i ? " " : "",
+					 lattice_label(spec, lat->tones[ch->tones[i]].seeds,
+						       member, sizeof member));
+			if (n < 0 || (size_t)n >= sizeof tones - used)
+				break;
+			used += (size_t)n;
+		}
+		const char *on = ch->seeds ? lattice_label(spec, ch->seeds, label, sizeof label) : "-";
+		fprintf(f, "  %-11s  %-*s  %-*s  ",
+			ch->kind == CHORD_HARMONIC ? "harmonic" : "subharmonic",
+			label_width + 2, on, tones_width, tones);
+		if (!ch->proportion_ok)
+			fprintf(f, "(too large for 64-bit integers)");
+		for (int i = 0; i < ch->tone_count && ch->proportion_ok; i++)
+			fprintf(f, "%s%lld", i ? ":" : "", (long long)ch->proportion[i]);
+		fputc('\n', f);
+	}
+
+	fprintf(f, "\nkeys     layout %s", key_layout_name(keys->layout));
+	if (keys->layout != KEY_LAYOUT_NEAREST)
+		fprintf(f, ", tone 0 on key %d", keys->root_key);
+	if (keys->transpose)
+		fprintf(f, ", transposed %+d", keys->transpose);
+	fprintf(f, ", 1/1 = %g Hz, key 60 = C4\n", keys->root_hz);
+	for (int o = 0; o < cfg->output_count; o++) {
+		const struct output_config *out = &cfg->outputs[o];
+		char chans[64];
+		fprintf(f, "output   %s: %s on channels %s", out->name,
+			output_method_name(out->method),
+			config_format_channels(out->channels, chans, sizeof chans));
+		if (output_uses_bend(out))
+			fprintf(f, ", bend range +-%d semitones", out->bend_range);
+		fputc('\n', f);
+	}
+
+	fprintf(f, "\n  %3s  %-4s  %4s  %-*s  %6s  %10s  %3s  %8s", "key", "name",
+		"tone", label_width, "seeds", "period", "Hz", "out", "cents");
+	for (int o = 0; o < cfg->output_count; o++)
+		if (output_uses_bend(&cfg->outputs[o]))
+			fprintf(f, "  %6s %7s", "bend", "error");
+	fprintf(f, "  %s\n", "MTS word");
+	for (int k = 0; k < KEYMAP_KEYS; k++) {
+		const struct key_pitch *kp = &map->keys[k];
+		if (kp->state != KEY_SOUNDING)
+			continue;
+		fprintf(f, "  %3d  %-4s  %4d  %-*s  %6d  %10.3f  %3d  %+8.3f", k,
+			key_name(k, name, sizeof name), kp->tone, label_width,
+			lattice_label(spec, lat->tones[kp->tone].seeds, label, sizeof label),
+			kp->period, kp->hz, kp->out_key, kp->cents_off);
+		for (int o = 0; o < cfg->output_count; o++) {
+			const struct output_config *out = &cfg->outputs[o];
+			if (!output_uses_bend(out))
+				continue;
+			struct bend b = pitch_bend_for_cents(kp->cents_off, out->bend_range,
+							     1.0);
+			fprintf(f, "  %6u %+7.3f", b.value, b.error_cents);
+		}
+		fprintf(f, "  %02X %02X %02X\n", kp->mts[0], kp->mts[1], kp->mts[2]);
+	}
+	if (cfg->output_count > 1) {
+		fprintf(f, "  (bend columns in output order:");
+		for (int o = 0; o < cfg->output_count; o++)
+			if (output_uses_bend(&cfg->outputs[o]))
+				fprintf(f, " %s", cfg->outputs[o].name);
+		fprintf(f, ")\n");
+	}
+	print_key_ranges(f, map, KEY_SILENT, "silent keys");
+	print_key_ranges(f, map, KEY_OUT_OF_RANGE,
+			 "silent, pitch outside MIDI (below key 0 or above MTS 7F 7F 7E)");
+}
+
+static struct json_object *fixed(double value, int decimals)
+{
+	char buf[64];
+	snprintf(buf, sizeof buf, "%.*f", decimals, value);
+	return json_object_new_double_s(value, buf);
+}
+
+static struct json_object *key_list(const struct keymap *map, enum key_state state)
+{
+	struct json_object *list = json_object_new_array();
+	for (int k = 0; k < KEYMAP_KEYS; k++)
+		if (map->keys[k].state == state)
+			json_object_array_add(list, json_object_new_int(k));
+	return list;
+}
+
+int table_print_json(FILE *f, const struct config *cfg, const struct tuning *t)
+{
+	const struct lattice *lat = &t->lattice;
+	const struct lattice_spec *spec = &lat->spec;
+	const struct keymap *map = &t->keymap;
+	char label[LATTICE_LABEL_MAX], text[RATIO_TEXT_MAX];
+
+	struct json_object *root = json_object_new_object();
+	json_object_object_add(root, "config", json_object_new_string(cfg->path));
+
+	struct json_object *jl = json_object_new_object();
+	struct json_object *seeds = json_object_new_array();
+	for (int i = 0; i < spec->seed_count; i++)
+		json_object_array_add(seeds, json_object_new_string(spec->seed_text[i]));
+	json_object_object_add(jl, "seeds", seeds);
+	json_object_object_add(jl, "choose", json_object_new_int(spec->choose));
+	json_object_object_add(jl, "period",
+			       json_object_new_string(ratio_format(spec->period, text, sizeof text)));
+	json_object_object_add(jl, "unison", spec->has_unison
+			       ? json_object_new_string(lattice_label(spec, spec->unison_seeds, label, sizeof label))
+			       : NULL);
+	json_object_object_add(root, "lattice", jl);
+
+	struct json_object *tones = json_object_new_array();
+	for (int i = 0; i < lat->tone_count; i++) {
+		const struct tone *tone = &lat->tones[i];
+		struct json_object *jt = json_object_new_object();
+		json_object_object_add(jt, "index", json_object_new_int(i));
+		json_object_object_add(jt, "label",
+				       json_object_new_string(lattice_label(spec, tone->seeds, label, sizeof label)));
+		json_object_object_add(jt, "ratio",
+				       json_object_new_string(ratio_format(tone->ratio, text, sizeof text)));
+		json_object_object_add(jt, "cents", fixed(tone->cents, 6));
+		struct json_object *merged = json_object_new_array();
+		for (int m = 0; m < lat->merge_count; m++)
+			if (lat->merges[m].tone == i)
+				json_object_array_add(merged, json_object_new_string(
+					lattice_label(spec, lat->merges[m].seeds, label, sizeof label)));
+		json_object_object_add(jt, "merged", merged);
+		json_object_array_add(tones, jt);
+	}
+	json_object_object_add(root, "tones", tones);
+
+	struct json_object *chords = json_object_new_array();
+	for (int c = 0; c < lat->chord_count; c++) {
+		const struct chord *ch = &lat->chords[c];
+		struct json_object *jc = json_object_new_object();
+		json_object_object_add(jc, "kind", json_object_new_string(
+			ch->kind == CHORD_HARMONIC ? "harmonic" : "subharmonic"));
+		json_object_object_add(jc, "seeds", json_object_new_string(
+			lattice_label(spec, ch->seeds, label, sizeof label)));
+		struct json_object *members = json_object_new_array();
+		struct json_object *prop = json_object_new_array();
+		for (int i = 0; i < ch->tone_count; i++) {
+			json_object_array_add(members, json_object_new_int(ch->tones[i]));
+			if (ch->proportion_ok)
+				json_object_array_add(prop, json_object_new_int64(ch->proportion[i]));
+		}
+		json_object_object_add(jc, "tones", members);
+		json_object_object_add(jc, "proportion", ch->proportion_ok ? prop : NULL);
+		if (!ch->proportion_ok)
+			json_object_put(prop);
+		json_object_array_add(chords, jc);
+	}
+	json_object_object_add(root, "chords", chords);
+
+	struct json_object *outputs = json_object_new_array();
+	for (int o = 0; o < cfg->output_count; o++) {
+		const struct output_config *out = &cfg->outputs[o];
+		struct json_object *jo = json_object_new_object();
+		json_object_object_add(jo, "name", json_object_new_string(out->name));
+		json_object_object_add(jo, "method", json_object_new_string(output_method_name(out->method)));
+		struct json_object *chans = json_object_new_array();
+		for (int ch = 0; ch < 16; ch++)
+			if (out->channels & (1u << ch))
+				json_object_array_add(chans, json_object_new_int(ch + 1));
+		json_object_object_add(jo, "channels", chans);
+		json_object_object_add(jo, "bend_range", json_object_new_int(out->bend_range));
+		json_object_array_add(outputs, jo);
+	}
+	json_object_object_add(root, "outputs", outputs);
+
+	struct json_object *jkeys = json_object_new_array();
+	for (int k = 0; k < KEYMAP_KEYS; k++) {
+		const struct key_pitch *kp = &map->keys[k];
+		if (kp->state != KEY_SOUNDING)
+			continue;
+		struct json_object *jk = json_object_new_object();
+		json_object_object_add(jk, "key", json_object_new_int(k));
+		json_object_object_add(jk, "tone", json_object_new_int(kp->tone));
+		json_object_object_add(jk, "label", json_object_new_string(
+			lattice_label(spec, lat->tones[kp->tone].seeds, label, sizeof label)));
+		json_object_object_add(jk, "period", json_object_new_int(kp->period));
+		json_object_object_add(jk, "hz", fixed(kp->hz, 6));
+		json_object_object_add(jk, "out_key", json_object_new_int(kp->out_key));
+		json_object_object_add(jk, "cents_off", fixed(kp->cents_off, 6));
+		struct json_object *bends = json_object_new_object();
+		bool first = true;
+		for (int o = 0; o < cfg->output_count; o++) {
+			const struct output_config *out = &cfg->outputs[o];
+			struct bend b = pitch_bend_for_cents(kp->cents_off, out->bend_range,
+							     1.0);
+			if (first) {
+				/* the first output's bend, at top level for quick use */
+				json_object_object_add(jk, "bend", json_object_new_int(b.value));
+				json_object_object_add(jk, "bend_error_cents", fixed(b.error_cents, 6));
+				first = false;
+			}
+			struct json_object *jb = json_object_new_object();
+			json_object_object_add(jb, "value", json_object_new_int(b.value));
+			json_object_object_add(jb, "error_cents", fixed(b.error_cents, 6));
+			json_object_object_add(bends, out->name, jb);
+		}
+		json_object_object_add(jk, "bends", bends);
+		struct json_object *mts = json_object_new_array();
+		for (int i = 0; i < 3; i++)
+			json_object_array_add(mts, json_object_new_int(kp->mts[i]));
+		json_object_object_add(jk, "mts", mts);
+		json_object_array_add(jkeys, jk);
+	}
+	json_object_object_add(root, "keys", jkeys);
+	json_object_object_add(root, "silent_keys", key_list(map, KEY_SILENT));
+	json_object_object_add(root, "out_of_range_keys", key_list(map, KEY_OUT_OF_RANGE));
+
+	const char *s = json_object_to_json_string_ext(
+		root, JSON_C_TO_STRING_PRETTY | JSON_C_TO_STRING_NOSLASHESCAPE);
+	int rc = fputs(s, f) < 0 || fputc('\n', f) == EOF ? -1 : 0;
+	json_object_put(root);
+	return rc;
+}

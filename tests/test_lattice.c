@@ -1,0 +1,6 @@
+#include <stdarg.h>
+#include <stddef.h>
+#include <setjmp.h>
+#include <cmocka.h>
+static void t(void **s){(void)s;}
+int main(void){const struct CMUnitTest x[]={cmocka_unit_test(t)};return cmocka_run_group_tests(x,NULL,NULL);}
