@@ -1,0 +1,29 @@
+# Shared by the stage scripts: package installation and a CMake build+test.
+# Sourced by the numbered stages, never run on its own.
+set -eu
+: "${LATTICED_SOURCE_DIR:?run through tests/run-all.sh}"
+: "${LATTICED_BUILD_ROOT:?run through tests/run-all.sh}"
+
+# apt_install PKG...: installs what is missing, waiting for other apt runs.
+apt_install() {
+	missing=""
+	for p in "$@"; do
+		dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed" ||
+			missing="$missing $p"
+	done
+	[ -z "$missing" ] && return 0
+	echo "installing:$missing"
+	# shellcheck disable=SC2086
+	${LATTICED_SUDO:-} env DEBIAN_FRONTEND=noninteractive apt-get -o DPkg::Lock::Timeout=600 install -y -qq --no-install-recommends $missing >/dev/null
+}
+
+BUILD_PACKAGES="build-essential cmake pkg-config libinih-dev libjson-c-dev libcmocka-dev"
+
+# cmake_build_test DIR [cmake args...]: configure, build warning-free, run ctest.
+cmake_build_test() {
+	dir="$LATTICED_BUILD_ROOT/$1"
+	shift
+	cmake -S "$LATTICED_SOURCE_DIR" -B "$dir" -DLATTICED_WERROR=ON "$@" >/dev/null
+	cmake --build "$dir" -j2
+	(cd "$dir" && ctest --output-on-failure -j2)
+}
