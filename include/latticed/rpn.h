@@ -29,7 +29,4 @@ enum rpn_param {
 void rpn_build(uint8_t channel, enum rpn_param param, uint8_t value,
 	       struct midi_msg out[RPN_SEQUENCE_LENGTH]);
 
-/* A control change message. */
-struct midi_msg midi_control(uint8_t channel, uint8_t controller, uint8_t value);
-
 #endif

@@ -322,7 +322,7 @@ bool engine_init(struct engine *e, const struct engine_spec *spec,
 	if (spec->input.channels == 0)
 		return core_fail(err, "channels", "no input channel is retuned");
 	int cc = spec->control.channel;
-	if (cc >= 0 && is_retuned(&(struct engine){.spec = *spec}, cc))
+	if (cc >= 0 && ((spec->input.channels >> cc) & 1))
 		return core_fail(err, "channel",
 				 "the control channel %d is also a retuned input channel", cc + 1);
 
@@ -856,11 +856,11 @@ static void parameter_cc(struct engine *e, int ch, int cc, int value)
 	for_sounding_channels(e, ch, is_mpe_member(e, ch), do_rebend, 0, 0);
 }
 
-static void master_bend(struct engine *e)
+/* MPE output: the player's wheel on input channel ch bends the whole zone. */
+static void master_bend(struct engine *e, int ch)
 {
 	send_bend(e, e->master_channel,
-		  bend_for(e, in_bend_cents(&e->in[global_of(e, 0) == 0 && !e->spec.input.mpe ? 0 : input_master(e)]),
-			   master_range(e)));
+		  bend_for(e, in_bend_cents(&e->in[ch]), master_range(e)));
 }
 
 static void mode_cc(struct engine *e, int ch, int cc)
@@ -958,7 +958,7 @@ static void pitch_wheel(struct engine *e, int ch, uint16_t value)
 	e->in[ch].bend = value;
 	bool member = is_mpe_member(e, ch);
 	if (!member && e->spec.output.method == RETUNE_MPE) {
-		master_bend(e);
+		master_bend(e, ch);
 		return;
 	}
 	for_sounding_channels(e, ch, member, do_rebend, 0, 0);

@@ -4,21 +4,12 @@
  */
 #include "latticed/rpn.h"
 
-struct midi_msg midi_control(uint8_t channel, uint8_t controller, uint8_t value)
-{
-	struct midi_msg m = {0};
-	m.status = (uint8_t)(MIDI_CONTROL | (channel & 0x0F));
-	m.data[0] = controller & 0x7F;
-	m.data[1] = value & 0x7F;
-	return m;
-}
-
 void rpn_build(uint8_t channel, enum rpn_param param, uint8_t value,
 	       struct midi_msg out[RPN_SEQUENCE_LENGTH])
 {
-	out[0] = midi_control(channel, 101, 0);
-	out[1] = midi_control(channel, 100, (uint8_t)param);
-	out[2] = midi_control(channel, 6, value);
-	out[3] = midi_control(channel, 101, 127);
-	out[4] = midi_control(channel, 100, 127);
+	out[0] = midi_msg_control(channel, 101, 0);
+	out[1] = midi_msg_control(channel, 100, (uint8_t)param);
+	out[2] = midi_msg_control(channel, 6, value);
+	out[3] = midi_msg_control(channel, 101, 127);
+	out[4] = midi_msg_control(channel, 100, 127);
 }
