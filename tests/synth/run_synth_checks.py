@@ -84,11 +84,20 @@ def _ticks(t):
     return round(TEMPO_CHANGE_S * 960) + round((t - TEMPO_CHANGE_S) * 1200)  # 150 bpm
 
 
-def write_performance(path, channel=0):
+def performance_for(params):
+    """PERFORMANCE moved onto the keys that play the same tones (same tone,
+    same period) in another layout, so every config hears the same music."""
+    sequential = ji_expect.key_map(ji_expect.Params())
+    target = {(kp.tone, kp.period): k for k, kp in ji_expect.key_map(params).items()}
+    return [(start, dur, [target[(sequential[k].tone, sequential[k].period)] for k in keys])
+            for start, dur, keys in PERFORMANCE]
+
+
+def write_performance(path, channel=0, performance=None):
     events = [(0, 0, mido.MetaMessage("set_tempo", tempo=500000)),
               (0, 1, mido.Message("program_change", channel=channel, program=pitchcheck.PROGRAM)),
               (_ticks(TEMPO_CHANGE_S), 0, mido.MetaMessage("set_tempo", tempo=400000))]
-    for start, dur, keys in PERFORMANCE:
+    for start, dur, keys in performance or PERFORMANCE:
         for k in keys:
             events.append((_ticks(start), 2, mido.Message("note_on", channel=channel, note=k, velocity=96)))
             events.append((_ticks(start + dur), 0, mido.Message("note_off", channel=channel, note=k)))
@@ -130,13 +139,14 @@ def _performance_notes(path):
     return notes
 
 
-def encode_bend(perf, out, bend_range, synth_factor, sharpen=None, whole_interval=False):
+def encode_bend(perf, out, bend_range, synth_factor, sharpen=None, whole_interval=False,
+                params=None):
     """Channel rotation with pitch bend.  synth_factor: how much of a bend the
     synth plays (127/128 for FluidSynth, 1 for a spec-true synth); bends are
     divided by it.  whole_interval: send every note on the key of its
     period's 1/1 (root_hz must be a 12-TET key) and bend the whole ratio.
     sharpen: (onset, key, cents) to detune one note on purpose."""
-    km = ji_expect.key_map(ji_expect.Params())
+    km = ji_expect.key_map(params or ji_expect.Params())
     root_note = ji_expect.note_of_hz(220)
     events = []
     for ch in BEND_POOL:
@@ -173,10 +183,10 @@ def mts_word(hz):
     return [key, frac >> 7, frac & 0x7F]
 
 
-def encode_mts(perf, out, select_program=True, program=0):
+def encode_mts(perf, out, select_program=True, program=0, params=None):
     """Every performance key retuned in place (key 58 sounds 275 Hz), on one
     channel, by one real-time single-note tuning change."""
-    km = ji_expect.key_map(ji_expect.Params())
+    km = ji_expect.key_map(params or ji_expect.Params())
     notes = _performance_notes(perf)
     keys = sorted({n.key for n in notes})
     data = [0x7F, 0x7F, 0x08, 0x02, program, len(keys)]
@@ -326,6 +336,36 @@ def write_config(path, keys_lines, output):
         f.write("\n".join(lines) + "\n")
 
 
+def _correction_hint(message):
+    if any("'%s'" % k in message for k in SYNTH_CORRECTION):
+        return (" -- latticed does not know the FluidSynth correction key; set "
+                "SYNTH_CORRECTION in tests/synth/run_synth_checks.py")
+    return ""
+
+
+def table_agrees(binary, conf):
+    """Does `latticed table --json` put every key where ji_expect does?  A
+    disagreement here means a render failure is about the key map, not about
+    how the pitch is sent.  Returns a problem or None."""
+    import json
+    p = subprocess.run([binary, "table", "--config", conf, "--json"], capture_output=True, text=True)
+    if p.returncode != 0:
+        return "latticed table failed: %s%s" % (p.stderr.strip(), _correction_hint(p.stderr))
+    try:
+        theirs = {k["key"]: float(k["hz"]) for k in json.loads(p.stdout)["keys"]}
+    except (ValueError, KeyError, TypeError) as e:
+        return "latticed table --json: unexpected layout (%s)" % e
+    ours = ji_expect.key_map(ji_expect.Params.from_file(conf))
+    if set(ours) != set(theirs):
+        return "keys that sound differ: only ji_expect %s, only latticed %s" % (
+            sorted(set(ours) - set(theirs)), sorted(set(theirs) - set(ours)))
+    bad = [k for k in ours if abs(float(ours[k].hz) - theirs[k]) > 1e-6 + 1e-9 * theirs[k]]
+    if bad:
+        return "keys %s: ji_expect %s Hz, latticed %s Hz" % (
+            bad[:5], [float(ours[k].hz) for k in bad[:5]], [theirs[k] for k in bad[:5]])
+    return None
+
+
 def latticed_checks(binary, workdir):
     if not os.access(binary, os.X_OK):
         print("run_synth_checks: %s is not an executable" % binary, file=sys.stderr)
@@ -334,13 +374,22 @@ def latticed_checks(binary, workdir):
         print("SKIP: %s has no 'render' command yet; the latticed-vs-FluidSynth checks "
               "need `latticed render`" % binary)
         return SKIP
-    perf = os.path.join(workdir, "performance.mid")
-    write_performance(perf)
-    failures, figures = [], []
+    print("== latticed table against ji_expect")
+    problems = []
+    for name, keys_lines, output in LATTICED_CASES:
+        conf = os.path.join(workdir, name + ".conf")
+        write_config(conf, keys_lines, output)
+        problem = table_agrees(binary, conf)
+        print("%s  %s%s" % ("FAIL" if problem else "ok  ", name, ": " + problem if problem else ""))
+        if problem:
+            problems.append("table " + name)
+    failures, figures = problems, []
     for name, keys_lines, output in LATTICED_CASES:
         conf = os.path.join(workdir, name + ".conf")
         out = os.path.join(workdir, name + ".out.mid")
+        perf = os.path.join(workdir, name + ".in.mid")
         write_config(conf, keys_lines, output)
+        write_performance(perf, performance=performance_for(ji_expect.Params.from_file(conf)))
         print("\n== latticed render, %s" % name)
         t0 = time.monotonic()
         p = subprocess.run([binary, "render", "--config", conf, "--output", "synth", perf, out],
@@ -348,11 +397,7 @@ def latticed_checks(binary, workdir):
         took = time.monotonic() - t0
         if p.returncode != 0:
             msg = (p.stderr or p.stdout).strip()
-            hint = ""
-            if any("'%s'" % k in msg for k in SYNTH_CORRECTION):
-                hint = (" -- latticed does not know the FluidSynth correction key; set "
-                        "SYNTH_CORRECTION in tests/synth/run_synth_checks.py")
-            print("FAIL: latticed render exited %d: %s%s" % (p.returncode, msg, hint))
+            print("FAIL: latticed render exited %d: %s%s" % (p.returncode, msg, _correction_hint(msg)))
             failures.append(name)
             continue
         expects = pitchcheck.expectations_from_input(conf, perf)
