@@ -139,7 +139,9 @@ def read_notes(path):
     try:
         mf = mido.MidiFile(path)
     except (OSError, EOFError, ValueError, KeyError, IndexError) as e:
-        raise InputError("%s: not a readable MIDI file: %s" % (path, e))
+        why = "it ends in the middle of a chunk" if isinstance(e, EOFError) else \
+            "%s: %s" % (type(e).__name__, e)
+        raise InputError("%s: not a readable MIDI file (%s)" % (path, why))
     now = 0.0
     sounding = {}
     notes = []

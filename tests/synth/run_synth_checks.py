@@ -401,7 +401,12 @@ def latticed_checks(binary, workdir):
             failures.append(name)
             continue
         expects = pitchcheck.expectations_from_input(conf, perf)
-        ok, s = pitchcheck.check(out, expects, TOLERANCE_CENTS, workdir)
+        try:
+            ok, s = pitchcheck.check(out, expects, TOLERANCE_CENTS, workdir)
+        except pitchcheck.InputError as e:
+            print("FAIL: %s" % e)
+            failures.append(name)
+            continue
         s["latticed_s"] = took
         figures.append((name, s))
         if not ok:
