@@ -196,7 +196,7 @@ mount -t sysfs sysfs /sys
 mount -t devtmpfs devtmpfs /dev
 mount -t tmpfs tmpfs /tmp
 exec </dev/null >/dev/console 2>&1
-echo "latticed-vm: init started"
+echo "latticed-vm: init started at \$(cut -d' ' -f1 /proc/uptime) s"
 fail() {
 	echo "latticed-vm: setup failed: \$*"
 	echo "latticed-vm: exit $HARNESS_FAIL"
@@ -288,9 +288,9 @@ boot() {
 start=$(date +%s.%N)
 rc=0
 if [ "$accel" = kvm ]; then
-	boot kvm 30 || rc=$?
+	boot kvm 20 || rc=$?
 	if [ "$rc" = 126 ]; then
-		echo "$prog: no boot under KVM within 30 s; using TCG" >&2
+		echo "$prog: no boot under KVM within 20 s; using TCG" >&2
 		accel=tcg
 		rc=0
 		boot tcg 0 || rc=$?
@@ -343,5 +343,6 @@ if [ -n "$outdir" ]; then
 		exit $HARNESS_FAIL
 	}
 fi
-echo "$prog: COMMAND exited with $status after ${elapsed} s in the VM ($accel)" >&2
+booted=$(tr -d '\r' <"$work/console.log" | sed -n 's/^latticed-vm: init started at \([0-9.]*\) s$/\1/p')
+echo "$prog: COMMAND exited with $status; /init started ${booted:-?} s after kernel start, whole run ${elapsed} s ($accel)" >&2
 exit "$status"
