@@ -132,7 +132,8 @@ put() { # put SRC DEST-IN-ROOT
 	cp -L "$1" "$root$2"
 }
 mkdir -p "$root/bin" "$root/proc" "$root/sys" "$root/dev" "$root/tmp" "$root/out" \
-	"$root/test" "$root/etc" "$root/root"
+	"$root/test" "$root/etc" "$root/root" "$root/run" "$root/var/tmp"
+ln -s ../run "$root/var/run"
 put /bin/busybox /bin/busybox
 for a in $(/bin/busybox --list); do
 	[ "$a" = busybox ] || ln -s busybox "$root/bin/$a"
@@ -144,7 +145,7 @@ ln -s ../bin "$root/usr/sbin"
 
 printf '%s' "$files" | while IFS= read -r d; do
 	[ -n "$d" ] || continue
-	(cd "$d" && find . -type f) | while IFS= read -r f; do
+	(cd "$d" && find . \( -type f -o -type l \)) | while IFS= read -r f; do
 		put "$d/$f" "/test/${f#./}"
 	done
 done
@@ -195,6 +196,10 @@ mount -t proc proc /proc
 mount -t sysfs sysfs /sys
 mount -t devtmpfs devtmpfs /dev
 mount -t tmpfs tmpfs /tmp
+mount -t tmpfs tmpfs /run
+mkdir -p /dev/shm /dev/pts
+mount -t tmpfs tmpfs /dev/shm
+mount -t devpts devpts /dev/pts
 exec </dev/null >/dev/console 2>&1
 echo "latticed-vm: init started at \$(cut -d' ' -f1 /proc/uptime) s"
 fail() {

@@ -915,7 +915,7 @@ static int cmd_record(int argc, char **argv)
 	const char *name = "seqtool", *portname = "in", *ready = NULL;
 	const char *args[2];
 	int nargs = 0;
-	double seconds = 10, idle = 0, wait_s = 5;
+	double seconds = 60, idle = 0, wait_s = 5;
 	long count = 0;
 	const char *usage = "usage: seqtool record [--name CLIENT] [--port PORT] [--wait S] [--seconds S] "
 			    "[--idle S] [--count N] [--ready FILE] SRC|- FILE";

@@ -19,6 +19,23 @@ vm_check "recording matches byte for byte, times within 25 ms" \
 	seqtool compare --time-tolerance 25 performance.txt "$OUT/recording.txt"
 vm_check "the 300-byte SysEx came in 2 chunks and was joined" grep -q "(2 SysEx in 3 chunks)" /tmp/rec.log
 
+vm_step "what seqtool sends, as alsa-utils' aseqdump reads it"
+# aseqdump decodes events with its own code: pitch bend as the sequencer's
+# signed value (0 = centre, -8192..8191; alsa-lib seq_event.h), a Note On
+# with velocity 0 printed as "Note off" without a velocity, a real Note Off
+# with one (alsa-utils aseqdump.c, as seen in its output here).
+printf '0 90 3C 00\n5 80 3C 40\n10 E0 00 00\n20 E0 7F 7F\n30 E0 00 40\n40 F0 7D 01 02 03 F7\n' >/tmp/x.txt
+vm_start dump aseqdump -p "$THRU"
+until seqtool list | grep -q "	aseqdump	"; do usleep 20000; done
+vm_check "play into Midi Through" seqtool play "$THRU" /tmp/x.txt
+vm_check "aseqdump stops cleanly" vm_stop dump
+vm_check "velocity-0 Note On stays a Note On" grep -Eq "Note off +0, note 60$" /tmp/dump.log
+vm_check "Note Off keeps its velocity" grep -Eq "Note off +0, note 60, velocity 64$" /tmp/dump.log
+vm_check "bend 00 00 is -8192" grep -Eq "Pitch bend +0, value -8192$" /tmp/dump.log
+vm_check "bend 7F 7F is 8191" grep -Eq "Pitch bend +0, value 8191$" /tmp/dump.log
+vm_check "bend 00 40 is 0" grep -Eq "Pitch bend +0, value 0$" /tmp/dump.log
+vm_check "SysEx bytes unchanged" grep -Eq "System exclusive +F0 7D 01 02 03 F7$" /tmp/dump.log
+
 vm_step "a player that waits to be connected, a recorder others connect to"
 printf '0 90 30 40\n10 80 30 40\n' >/tmp/short.txt
 vm_start keys seqtool play --name Keys --port out --await-subscriber 10 - /tmp/short.txt
