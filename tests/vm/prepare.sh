@@ -78,10 +78,17 @@ work="$cache/work.$$"
 rm -rf "$work"
 mkdir -p "$work"
 trap 'rm -rf "$work"' EXIT
-(cd "$work" && apt-get download "$pkg" >/dev/null 2>"$work/download.err") || {
+if ! (cd "$work" && apt-get download "$pkg" >/dev/null 2>"$work/download.err"); then
 	cat "$work/download.err" >&2
-	die "apt-get download $pkg failed"
-}
+	if [ -f "$cache/kernel.env" ]; then
+		. "$cache/kernel.env"
+		if [ -f "$cache/linux-$LATTICED_VM_KVER/complete" ]; then
+			say "apt-get download $pkg failed; keeping the cached kernel $LATTICED_VM_KVER"
+			exit 0
+		fi
+	fi
+	die "apt-get download $pkg failed (is 'apt-get update' needed?)"
+fi
 deb=$(ls "$work"/*.deb)
 say "unpacking $(basename "$deb")"
 mkdir -p "$work/root"
