@@ -267,6 +267,31 @@ static void merge_warning(void **state)
 			       "t.conf:2: warning: products 1.27 and 3.9 are the same tone 27/16; merged into one"));
 }
 
+/* More messages than the report holds: whole lines only, and a last line
+ * that counts the rest (found by tests/fuzz/fuzz_config: the 924-tone set
+ * over the odd seeds 1..23 merges 270 products). */
+static void long_report_keeps_whole_lines(void **state)
+{
+	(void)state;
+	assert_true(parse("[lattice]\nseeds = 1 3 5 7 9 11 13 15 17 19 21 23\nchoose = 6\n"));
+	assert_true(config_build_tuning(&cfg, 0, &tuning, &report));
+	assert_true(report.warning_count > 100);
+	assert_int_equal(strlen(report.text), report.length);
+	assert_int_equal(report.text[report.length - 1], '\n');
+	int shown = 0;
+	for (const char *p = report.text; (p = strstr(p, "warning: products")); p++)
+		shown++;
+	char last[64];
+	snprintf(last, sizeof last, "t.conf: %d more message(s) left out\n",
+		 report.warning_count - shown);
+	assert_true(report.length > strlen(last));
+	assert_string_equal(report.text + report.length - strlen(last), last);
+	/* every line but the last is a whole warning */
+	for (const char *p = report.text; *p; p = strchr(p, '\n') + 1)
+		assert_true(strncmp(p, "t.conf:2: warning: products ", 28) == 0 ||
+			    strcmp(p, last) == 0);
+}
+
 static void presets_inherit_the_main_tuning(void **state)
 {
 	(void)state;
@@ -382,6 +407,7 @@ int main(void)
 		cmocka_unit_test(build_errors_name_the_line),
 		cmocka_unit_test(map_slots_by_label),
 		cmocka_unit_test(merge_warning),
+		cmocka_unit_test(long_report_keeps_whole_lines),
 		cmocka_unit_test(presets_inherit_the_main_tuning),
 		cmocka_unit_test(input_output_control_keys),
 		cmocka_unit_test(unreadable_file),

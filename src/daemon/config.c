@@ -160,18 +160,39 @@ static void report_add(struct config_report *r, bool is_error,
 	va_start(ap, fmt);
 	vsnprintf(body, sizeof body, fmt, ap);
 	va_end(ap);
-	size_t room = sizeof r->text - r->length;
-	if (room < 2)
+	/* Whole lines only: a line cut in half would run into whatever the
+	 * caller prints next.  Room is kept for one closing line that says
+	 * how many messages did not fit. */
+	static const char more[] = "%s: %d more message(s) left out\n";
+	char text[CONFIG_PATH_MAX + sizeof body + 64];
+	int n = line > 0
+		? snprintf(text, sizeof text, "%s:%d: %s%s\n", path, line,
+			   is_error ? "" : "warning: ", body)
+		: snprintf(text, sizeof text, "%s: %s%s\n", path,
+			   is_error ? "" : "warning: ", body);
+	if (n < 0)
 		return;
-	int n;
-	if (line > 0)
-		n = snprintf(r->text + r->length, room, "%s:%d: %s%s\n", path,
-			     line, is_error ? "" : "warning: ", body);
+	size_t len = (size_t)n;
+	if (len >= sizeof text) {
+		len = sizeof text - 1;
+		text[len - 1] = '\n';
+	}
+	size_t closing = strlen(path) + sizeof more + 16;
+	if (r->left_out == 0 && r->length + len + closing < sizeof r->text) {
+		memcpy(r->text + r->length, text, len + 1);
+		r->length += len;
+		return;
+	}
+	/* rewrite the closing line with the new count */
+	if (r->left_out == 0)
+		r->closing_at = r->length;
+	r->left_out++;
+	n = snprintf(r->text + r->closing_at, sizeof r->text - r->closing_at, more, path,
+		     r->left_out);
+	if (n > 0 && r->closing_at + (size_t)n < sizeof r->text)
+		r->length = r->closing_at + (size_t)n;
 	else
-		n = snprintf(r->text + r->length, room, "%s: %s%s\n", path,
-			     is_error ? "" : "warning: ", body);
-	if (n > 0)
-		r->length += (size_t)n < room ? (size_t)n : room - 1;
+		r->text[r->length = r->closing_at] = '\0';
 }
 
 /* ---- pass 1: collect entries through inih ------------------------------ */

@@ -93,12 +93,15 @@ struct config {
 	struct output_config outputs[CONFIG_MAX_OUTPUTS];
 };
 
-/* Errors and warnings, one per line, each ending in '\n'. */
+/* Errors and warnings, one per line, each ending in '\n'; whole lines only,
+ * and when they do not all fit the last line says how many were left out. */
 struct config_report {
 	int error_count;
 	int warning_count;
 	size_t length;
 	char text[CONFIG_REPORT_MAX];
+	int left_out;                  /* messages that did not fit (counted in the last line) */
+	size_t closing_at;             /* where that last line starts */
 };
 
 /* A built tuning: large (about 0.5 MB), allocate it once. */
