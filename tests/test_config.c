@@ -385,6 +385,17 @@ static void input_output_control_keys(void **state)
 		     "t.conf:4: the control channel 2 is also retuned in [input] channels");
 }
 
+static void mts_needs_a_channel_per_input(void **state)
+{
+	(void)state;
+	expect_error("[input]\nchannels = 1-8\n[output tuned]\nmethod = mts\nchannels = 11-16\n",
+		     "t.conf:3: [output tuned] method = mts has 6 channels for 8 retuned input channels, expected one output channel per input channel");
+	/* an MPE controller plays on all 16 */
+	expect_error("[input]\nmpe = lower\n[output z]\nmethod = mts\n",
+		     "t.conf:3: [output z] method = mts has 14 channels for 16 retuned input channels");
+	assert_true(parse("[input]\nchannels = 1-6\n[output tuned]\nmethod = mts\nchannels = 11-16\n"));
+}
+
 static void unreadable_file(void **state)
 {
 	(void)state;
@@ -410,6 +421,7 @@ int main(void)
 		cmocka_unit_test(long_report_keeps_whole_lines),
 		cmocka_unit_test(presets_inherit_the_main_tuning),
 		cmocka_unit_test(input_output_control_keys),
+		cmocka_unit_test(mts_needs_a_channel_per_input),
 		cmocka_unit_test(unreadable_file),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);

@@ -544,6 +544,33 @@ static void mts_never_retunes_a_sounding_key(void **state)
 	assert_int_equal(model.violations, 0);
 }
 
+/* Two players' wheels on one MTS channel would bend each other's sounding
+ * notes (found by tests/fuzz/fuzz_engine): each input channel gets its own
+ * output channel, and too few output channels are refused. */
+static void mts_one_output_channel_per_input(void **state)
+{
+	(void)state;
+	struct engine_spec s = default_spec(RETUNE_MTS);
+	s.input.channels = 0x0003;
+	s.output.channels = 0x0001;
+	struct core_error err;
+	memset(&h, 0, sizeof h);
+	assert_false(engine_init(&h.engine, &s, &tunings, harness_emit, &h, &err));
+	assert_string_equal(err.field, "channels");
+	assert_non_null(strstr(err.text, "2 input channels, but only 1 output channel"));
+
+	s.output.channels = 0x0006;
+	start(&s);
+	harness_send(&h, 0x90, 60, 100);           /* input 1 plays on channel 2 */
+	harness_send(&h, 0xE1, 0x00, 0x50);        /* input 2's wheel, nothing sounds there */
+	harness_clear(&h);
+	harness_send(&h, 0x91, 62, 100);           /* input 2 plays on channel 3, bent */
+	assert_int_equal(model.last_on_channel, 2);
+	assert_int_equal(model.ch[2].bend, 0x2800);
+	assert_int_equal(model.ch[1].bend, 8192);  /* channel 2's note is left alone */
+	assert_int_equal(model.violations, 0);
+}
+
 static void mts_bulk_dump_with_checksum(void **state)
 {
 	(void)state;
@@ -977,6 +1004,7 @@ int main(void)
 		cmocka_unit_test(panic_and_vanished_source),
 		cmocka_unit_test(mts_tunes_a_key_before_its_note),
 		cmocka_unit_test(mts_never_retunes_a_sounding_key),
+		cmocka_unit_test(mts_one_output_channel_per_input),
 		cmocka_unit_test(mts_bulk_dump_with_checksum),
 		cmocka_unit_test(mpe_notes_rotate_wheel_on_master),
 		cmocka_unit_test(mpe_input_bends_follow_their_note),

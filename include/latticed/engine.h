@@ -19,7 +19,8 @@
  *         first, else the free channel released longest ago (its release
  *         tail rings out undisturbed).  More notes than channels: share a
  *         channel whose bend is identical, or steal the oldest, or both.
- *   mts   notes stay on one channel per input channel; each key is tuned
+ *   mts   notes stay on one channel per input channel (engine_init refuses
+ *         fewer output channels than retuned input channels); each key is tuned
  *         with a real-time single-note tuning change just before its
  *         note-on when the synth does not hold that tuning already; the
  *         tuning program is selected with RPN 3 (and RPN 4 for a bank);

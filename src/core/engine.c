@@ -357,20 +357,26 @@ bool engine_init(struct engine *e, const struct engine_spec *spec,
 		for (int ch = 0; ch < 16; ch++)
 			e->out[ch].in_pool = (o->channels >> ch) & 1;
 	} else {
-		/* MTS: input channel n (in order) plays on the n-th listed channel */
-		int pool[16], pool_count = 0, index = 0;
-		for (int ch = 0; ch < 16; ch++)
+		/* MTS: input channel n (in order) plays on the n-th listed
+		 * channel.  Never two on one: a channel holds one wheel, one
+		 * program and one set of controllers, and a second player's would
+		 * change the first one's sounding notes. */
+		int pool[16], pool_count = 0, needed = 0, index = 0;
+		for (int ch = 0; ch < 16; ch++) {
 			if ((o->channels >> ch) & 1)
 				pool[pool_count++] = ch;
+			needed += is_retuned(e, ch);
+		}
+		if (needed > pool_count)
+			return core_fail(err, "channels",
+					 "method mts plays each retuned input channel on its own output channel: %d input channel%s, but only %d output channel%s",
+					 needed, needed == 1 ? "" : "s", pool_count, pool_count == 1 ? "" : "s");
 		for (int ch = 0; ch < 16; ch++) {
-			if (!is_retuned(e, ch) || (spec->input.mpe && ch == input_master(e) &&
-						   spec->input.channels != (1u << ch)))
+			if (!is_retuned(e, ch))
 				continue;
-			e->mts_channel_of[ch] = (uint8_t)pool[index++ % pool_count];
+			e->mts_channel_of[ch] = (uint8_t)pool[index++];
 			e->out[e->mts_channel_of[ch]].in_pool = true;
 		}
-		if (spec->input.mpe)
-			e->mts_channel_of[input_master(e)] = (uint8_t)pool[0];
 	}
 	for (int ch = 0; ch < 16; ch++) {
 		e->in[ch].bend = PITCH_BEND_CENTRE;

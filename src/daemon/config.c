@@ -988,10 +988,16 @@ static void cross_check(struct interp *in)
 		fail(in, in->control_channel_line,
 		     "the control channel %d is also retuned in [input] channels, expected a channel the player does not play on",
 		     ctl + 1);
+	int inputs = __builtin_popcount(input->channels);
 	for (int i = 0; i < cfg->output_count; i++) {
 		struct output_config *o = &cfg->outputs[i];
 		if (!o->bend_range_set)
 			o->bend_range = o->method == RETUNE_MPE ? 48 : 2;
+		int outputs = __builtin_popcount(o->channels);
+		if (o->method == RETUNE_MTS && outputs < inputs)
+			fail(in, o->line,
+			     "[output %s] method = mts has %d channel%s for %d retuned input channel%s, expected one output channel per input channel (more channels, or fewer in [input] channels)",
+			     o->name, outputs, outputs == 1 ? "" : "s", inputs, inputs == 1 ? "" : "s");
 	}
 }
 
