@@ -289,6 +289,30 @@ static void sustain_keeps_the_channel(void **state)
 	assert_int_equal(model.violations, 0);
 }
 
+/* Input 1's pedal is down on channel 2 when input 2 steals it: input 2's
+ * notes must not ring for ever under a pedal nobody will lift there
+ * (found by tests/fuzz/fuzz_engine). */
+static void stolen_channel_drops_a_foreign_pedal(void **state)
+{
+	(void)state;
+	struct engine_spec s = default_spec(RETUNE_BEND);
+	s.output.channels = 0x0002;  /* only channel 2 */
+	s.input.channels = 0x0003;
+	start(&s);
+	harness_send(&h, 0xB0, 64, 127);
+	harness_send(&h, 0x90, 60, 100);
+	harness_send(&h, 0x80, 60, 0);     /* rings under input 1's pedal */
+	harness_clear(&h);
+	harness_send(&h, 0x91, 61, 100);   /* input 2 steals channel 2 */
+	/* all sound off ends the ringing note, sustain off (CC64 0, MIDI 1.0)
+	 * before input 2's bend and note */
+	EXPECT(0xB1, 120, 0, 0xB1, 64, 0, 0xE1, 6915 & 0x7F, 6915 >> 7, 0x91, 67, 100);
+	harness_send(&h, 0x81, 61, 0);
+	harness_send(&h, 0xB0, 64, 0);     /* input 1 lifts its pedal: nothing of it sounds */
+	assert_int_equal(model_sounding_count(&model), 0);
+	assert_int_equal(model.violations, 0);
+}
+
 static void sostenuto_holds_only_notes_down(void **state)
 {
 	(void)state;
@@ -993,6 +1017,7 @@ int main(void)
 		cmocka_unit_test(free_channel_with_same_bend_first_then_lru),
 		cmocka_unit_test(share_then_steal),
 		cmocka_unit_test(sustain_keeps_the_channel),
+		cmocka_unit_test(stolen_channel_drops_a_foreign_pedal),
 		cmocka_unit_test(sostenuto_holds_only_notes_down),
 		cmocka_unit_test(wheel_moves_every_sounding_note),
 		cmocka_unit_test(player_rpn0_sets_wheel_range),

@@ -501,6 +501,13 @@ static void sync_channel(struct engine *e, int ch, int in_ch)
 		for (int cc = 1; cc < 120; cc++)
 			if (cc != 32 && bit_get(g->cc_set, cc) && !is_parameter_cc(cc))
 				send_cc(e, ch, cc, g->cc[cc], false);
+		/* A pedal that another input channel left down here (its notes
+		 * were stolen) would hold these notes for ever: the pedals always
+		 * follow the player of the notes on the channel. */
+		for (int cc = 64; cc <= 66; cc += 2)
+			if (!bit_get(g->cc_set, cc) && bit_get(e->out[ch].cc_known, cc) &&
+			    e->out[ch].cc[cc] >= 64)
+				send_cc(e, ch, cc, 0, false);
 		if (g->pressure_set)
 			send_pressure(e, ch, g->pressure);
 	}
