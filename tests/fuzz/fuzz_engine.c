@@ -260,6 +260,10 @@ static void spec_from_header(const uint8_t *h, struct engine_spec *s)
 		if (in->channels == 0)
 			in->channels = c->channel == 0 ? 0x0002 : 0x0001;
 	}
+	/* mts needs an output channel per retuned input channel (engine.h) */
+	if (o->method == RETUNE_MTS &&
+	    __builtin_popcount(o->channels) < __builtin_popcount(in->channels))
+		o->channels = 0xFFFF;
 	if (h[3] & 0x80) {
 		c->preset_keys = h[4] & 0x10 ? 0 : 120;
 		c->root_keys = h[4] & 0x20 ? 100 : 12;
