@@ -313,6 +313,25 @@ static void stolen_channel_drops_a_foreign_pedal(void **state)
 	assert_int_equal(model.violations, 0);
 }
 
+/* All sound off acts on the channel it arrives on (MIDI 1.0 channel mode
+ * messages): input 1's must not cut input 2's notes (found by
+ * tests/fuzz/fuzz_engine). */
+static void all_sound_off_keeps_other_inputs(void **state)
+{
+	(void)state;
+	struct engine_spec s = default_spec(RETUNE_BEND);
+	s.output.channels = 0x0006;  /* 2 and 3 */
+	s.input.channels = 0x0003;
+	start(&s);
+	harness_send(&h, 0x90, 60, 100);   /* input 1 on channel 2, key 64 */
+	harness_send(&h, 0x91, 61, 100);   /* input 2 on channel 3, key 67 */
+	harness_clear(&h);
+	harness_send(&h, 0xB0, 120, 0);
+	EXPECT(0x81, 64, 64, 0xB1, 120, 0);
+	assert_true(model.ch[2].on[67]);
+	assert_int_equal(model.violations, 0);
+}
+
 static void sostenuto_holds_only_notes_down(void **state)
 {
 	(void)state;
@@ -1018,6 +1037,7 @@ int main(void)
 		cmocka_unit_test(share_then_steal),
 		cmocka_unit_test(sustain_keeps_the_channel),
 		cmocka_unit_test(stolen_channel_drops_a_foreign_pedal),
+		cmocka_unit_test(all_sound_off_keeps_other_inputs),
 		cmocka_unit_test(sostenuto_holds_only_notes_down),
 		cmocka_unit_test(wheel_moves_every_sounding_note),
 		cmocka_unit_test(player_rpn0_sets_wheel_range),

@@ -880,6 +880,23 @@ static void master_bend(struct engine *e, int ch)
 		  bend_for(e, in_bend_cents(&e->in[ch]), master_range(e)));
 }
 
+/* Whether the player's all-sound-off on input channel ch goes to output
+ * channel out_ch.  It acts on one channel's notes (MIDI 1.0), so not where
+ * another input channel's notes sound or ring out, and on the MPE master
+ * (which speaks for the whole zone) only while no other input channel's
+ * notes sound there. */
+static bool silence_reaches(const struct engine *e, int out_ch, int ch)
+{
+	int g = global_of(e, ch);
+	if (e->out[out_ch].in_pool)
+		return global_of(e, e->out[out_ch].source_channel) == g;
+	for (int c = 0; c < 16; c++)
+		if (e->out[c].in_pool && e->out[c].note_count > 0 &&
+		    global_of(e, e->out[c].source_channel) != g)
+			return false;
+	return true;
+}
+
 static void mode_cc(struct engine *e, int ch, int cc)
 {
 	struct engine_in_channel *c = &e->in[ch];
@@ -919,7 +936,7 @@ static void mode_cc(struct engine *e, int ch, int cc)
 		}
 		if (cc == 120) {
 			for (int out_ch = 0; out_ch < 16; out_ch++)
-				if (output_uses(e, out_ch))
+				if (output_uses(e, out_ch) && silence_reaches(e, out_ch, ch))
 					send_cc(e, out_ch, 120, 0, true);
 		}
 	}
