@@ -694,6 +694,31 @@ static void mpe_input_bends_follow_their_note(void **state)
 	EXPECT(0xB0 | c61, 74, 99);
 }
 
+/* Reset all controllers on a member channel lifts the zone's pedals at the
+ * synth, so the engine must lift them too: a second sostenuto press would
+ * otherwise latch the note at the synth only, and it would ring for ever
+ * (found by tests/fuzz/fuzz_engine).  What 121 resets: MIDI 1.0 RP-015
+ * (from memory: pedals up, bend centred). */
+static void member_reset_lifts_zone_pedals(void **state)
+{
+	(void)state;
+	struct engine_spec s = default_spec(RETUNE_BEND);
+	s.input.mpe = true;
+	s.input.mpe_zone = MPE_ZONE_LOWER;
+	s.input.channels = 0xFFFF;
+	s.output.bend_range = 48;
+	start(&s);
+	harness_send(&h, 0xB1, 66, 127);  /* sostenuto down (the zone's, on a member) */
+	harness_send(&h, 0x91, 60, 100);  /* pressed after it: not held */
+	harness_send(&h, 0xB1, 121, 0);   /* the synth lifts every pedal of the zone */
+	harness_send(&h, 0xB1, 66, 127);  /* a new press holds the note */
+	harness_send(&h, 0x81, 60, 0);
+	assert_int_equal(model_sounding_count(&model), 1);
+	harness_send(&h, 0xB1, 66, 0);
+	assert_int_equal(model_sounding_count(&model), 0);
+	assert_int_equal(model.violations, 0);
+}
+
 static void synth_correction_factor_and_offset(void **state)
 {
 	(void)state;
@@ -1053,6 +1078,7 @@ int main(void)
 		cmocka_unit_test(mts_bulk_dump_with_checksum),
 		cmocka_unit_test(mpe_notes_rotate_wheel_on_master),
 		cmocka_unit_test(mpe_input_bends_follow_their_note),
+		cmocka_unit_test(member_reset_lifts_zone_pedals),
 		cmocka_unit_test(synth_correction_factor_and_offset),
 		cmocka_unit_test(randomized_promises),
 	};

@@ -909,7 +909,19 @@ static void mode_cc(struct engine *e, int ch, int cc)
 		memcpy(c->cc_set, keep, sizeof keep);
 		c->pressure_set = false;
 		c->bend = PITCH_BEND_CENTRE;
-		c->sustain = c->sostenuto = false;
+		/* The reset goes to every output channel of the zone (below), so
+		 * the synth lifts the pedals there: so must we, on the channel the
+		 * pedals belong to (an MPE controller's master), or a later
+		 * press would find them "already down" and latch nothing. */
+		int global = global_of(e, ch);
+		struct engine_in_channel *g = &e->in[global];
+		g->sustain = g->sostenuto = false;
+		bit_put(g->cc_set, 64, false);
+		bit_put(g->cc_set, 66, false);
+		for (int i = 0; i < ENGINE_MAX_NOTES; i++)
+			if (e->notes[i].phase == NOTE_DOWN &&
+			    global_of(e, e->notes[i].in_channel) == global)
+				e->notes[i].sostenuto_latched = false;
 		for (int out_ch = 0; out_ch < 16; out_ch++) {
 			if (!output_uses(e, out_ch))
 				continue;
