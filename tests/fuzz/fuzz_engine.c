@@ -98,6 +98,15 @@ struct run {
 };
 
 static struct run run;
+static bool trace;   /* FUZZ_TRACE=1: print every message in and out */
+
+static void trace_msg(const char *dir, const uint8_t *bytes, size_t n)
+{
+	fprintf(stderr, "%s", dir);
+	for (size_t i = 0; i < n && i < 16; i++)
+		fprintf(stderr, " %02X", bytes[i]);
+	fprintf(stderr, n > 16 ? " ...\n" : "\n");
+}
 
 static void check_model(const char *when)
 {
@@ -117,6 +126,8 @@ static void emit(void *context, const struct midi_msg *m)
 			 m->status, m->data[0], m->data[1]);
 		die(r->why);
 	}
+	if (trace)
+		trace_msg(r->passthrough && midi_msg_is_channel(m) ? "    passed" : "    out", bytes, n);
 	if (r->passthrough && midi_msg_is_channel(m)) {
 		r->passed++;
 		if (!midi_msg_equal(m, r->input))
@@ -148,6 +159,11 @@ static void handle(uint8_t source, const struct midi_msg *m)
 		(type == MIDI_PITCH_BEND ||
 		 (type == MIDI_CONTROL && (m->data[0] == 6 || m->data[0] == 38)));
 	bool engine_plays_here = run.passthrough && run.engine_channel[ch];
+	if (trace) {
+		uint8_t bytes[SYSEX_CAPACITY + 8];
+		fprintf(stderr, "source %u", source);
+		trace_msg(" in", bytes, midi_msg_encode(m, bytes, sizeof bytes));
+	}
 
 	engine_handle(&run.engine, source, m);
 
@@ -277,6 +293,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
 {
 	if (!sets[0].count) {
+		trace = getenv("FUZZ_TRACE") != NULL;
 		build_set(tunings_text, &sets[0]);
 		build_set(reload_text, &sets[1]);
 	}
