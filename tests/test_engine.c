@@ -699,6 +699,25 @@ static void mpe_input_bends_follow_their_note(void **state)
  * otherwise latch the note at the synth only, and it would ring for ever
  * (found by tests/fuzz/fuzz_engine).  What 121 resets: MIDI 1.0 RP-015
  * (from memory: pedals up, bend centred). */
+/* Reset all controllers centres the synth's bend (MIDI 1.0 RP-015, from
+ * memory): a sounding note gets its retune back at once, or it would go on
+ * in 12-TET (found by tests/fuzz/fuzz_engine). */
+static void reset_all_controllers_keeps_the_retune(void **state)
+{
+	(void)state;
+	struct engine_spec s = default_spec(RETUNE_BEND);
+	s.output.channels = 0x0002;
+	start(&s);
+	harness_send(&h, 0x90, 60, 100);   /* channel 2, bend 8272 */
+	model.bend_change_allowed = true;  /* the player's reset centres the wheel */
+	harness_send(&h, 0xE0, 0x00, 0x50);
+	harness_clear(&h);
+	harness_send(&h, 0xB0, 121, 0);
+	model.bend_change_allowed = false;
+	EXPECT(0xB1, 121, 0, 0xE1, 0x50, 0x40);
+	assert_true(fabs(model_pitch(&model, 1, 64) - key_note(0, 60)) < 0.5 * 2.0 / 8192 + 1e-9);
+}
+
 static void member_reset_lifts_zone_pedals(void **state)
 {
 	(void)state;
@@ -710,7 +729,9 @@ static void member_reset_lifts_zone_pedals(void **state)
 	start(&s);
 	harness_send(&h, 0xB1, 66, 127);  /* sostenuto down (the zone's, on a member) */
 	harness_send(&h, 0x91, 60, 100);  /* pressed after it: not held */
+	model.bend_change_allowed = true;  /* it centres the wheel, too */
 	harness_send(&h, 0xB1, 121, 0);   /* the synth lifts every pedal of the zone */
+	model.bend_change_allowed = false;
 	harness_send(&h, 0xB1, 66, 127);  /* a new press holds the note */
 	harness_send(&h, 0x81, 60, 0);
 	assert_int_equal(model_sounding_count(&model), 1);
@@ -1078,6 +1099,7 @@ int main(void)
 		cmocka_unit_test(mts_bulk_dump_with_checksum),
 		cmocka_unit_test(mpe_notes_rotate_wheel_on_master),
 		cmocka_unit_test(mpe_input_bends_follow_their_note),
+		cmocka_unit_test(reset_all_controllers_keeps_the_retune),
 		cmocka_unit_test(member_reset_lifts_zone_pedals),
 		cmocka_unit_test(synth_correction_factor_and_offset),
 		cmocka_unit_test(randomized_promises),

@@ -933,6 +933,12 @@ static void mode_cc(struct engine *e, int ch, int cc)
 				if (!bit_get(keep, k))
 					bit_put(o->cc_known, k, false);
 			o->bend_known = o->pressure_known = false;
+			/* the synth centred this channel's bend: sounding notes get
+			 * their retune (and whatever wheel is left) back at once */
+			if (e->spec.output.method == RETUNE_MPE && out_ch == e->master_channel)
+				master_bend(e, global);
+			else if (o->note_count > 0)
+				do_rebend(e, out_ch, 0, 0);
 		}
 		settle_ringing(e, global_of(e, ch));
 		return;

@@ -19,7 +19,8 @@
  *   - no note-on for a channel and key that already sounds, no note-off
  *     without a note-on (synth_model.h);
  *   - a channel's bend changes under a sounding note only while the
- *     player's message moves a wheel (pitch bend, RPN data entry);
+ *     player's message moves a wheel (pitch bend, RPN data entry, reset
+ *     all controllers, which centres it);
  *   - pass-through: a channel message on a channel that is neither retuned
  *     nor the control channel comes out unchanged, alone, or not at all
  *     when the engine plays on that channel;
@@ -157,7 +158,8 @@ static void handle(uint8_t source, const struct midi_msg *m)
 	/* the player's wheel moves, and what its range means changes, by these */
 	run.model.bend_change_allowed = channel && is_retuned(ch) &&
 		(type == MIDI_PITCH_BEND ||
-		 (type == MIDI_CONTROL && (m->data[0] == 6 || m->data[0] == 38)));
+		 (type == MIDI_CONTROL && (m->data[0] == 6 || m->data[0] == 38 ||
+					   m->data[0] == 121)));
 	bool engine_plays_here = run.passthrough && run.engine_channel[ch];
 	if (trace) {
 		uint8_t bytes[SYSEX_CAPACITY + 8];
