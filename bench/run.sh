@@ -1,0 +1,105 @@
+#!/bin/sh
+# Benchmarks of the event path and of offline rendering: figures to read,
+# never a pass/fail test (README.md, "Benchmarks").
+#
+#   bench/run.sh [BUILD_DIR]     default build-bench (configured and built here)
+#
+# Prints one table:
+#   - events per second of bench/engine_bench's fixed performance (10^6
+#     MIDI messages as bytes through parser, engine and encoder), per method;
+#   - instructions per note-on, note-off, CC and pitch bend, per method,
+#     counted by valgrind's callgrind (the inclusive cost of engine_bench's
+#     play_note_ons / play_note_offs / play_controls / play_wheel divided by
+#     the messages each played; 2*10^5 events per run);
+#   - the peak resident memory (max RSS) of `latticed render` on a ~1 MB
+#     Standard MIDI File of the same performance, when the binary has a
+#     render command (said so when it has none).
+# Needs valgrind (apt-get install valgrind) for the instruction counts and
+# python3 for the RSS; each part says so and is skipped when they are missing.
+set -eu
+top=$(cd "$(dirname "$0")/.." && pwd)
+build=${1:-$top/build-bench}
+if [ ! -x "$build/bench/engine_bench" ] || [ ! -x "$build/latticed" ]; then
+	cmake -S "$top" -B "$build" -DCMAKE_BUILD_TYPE=RelWithDebInfo >/dev/null
+	cmake --build "$build" -j2 --target engine_bench latticed >/dev/null
+fi
+bench="$build/bench/engine_bench"
+latticed="$build/latticed"
+tmp=$(mktemp -d)
+trap 'rm -rf "$tmp"' EXIT
+
+# 1. speed, best of three runs
+for i in 1 2 3; do
+	"$bench" --events 1000000 >"$tmp/speed.$i"
+done
+
+best_speed() { # method -> best events/s of the three runs
+	cat "$tmp"/speed.* | awk -v m="$1" '$1 == m { v = $6 + 0; if (v > best) best = v } END { printf "%.0f", best }'
+}
+
+# 2. instructions per message kind
+have_callgrind=no
+if command -v valgrind >/dev/null 2>&1 && command -v callgrind_annotate >/dev/null 2>&1; then
+	have_callgrind=yes
+	for m in bend mts mpe; do
+		valgrind --tool=callgrind --callgrind-out-file="$tmp/cg.$m" \
+			"$bench" --method "$m" --events 200000 >"$tmp/counts.$m" 2>/dev/null
+		callgrind_annotate --inclusive=yes --auto=no "$tmp/cg.$m" >"$tmp/annotate.$m" 2>/dev/null
+	done
+fi
+
+per_kind() { # method function count-field -> instructions per message
+	ir=$(awk -v f="engine_bench.c:$2" 'index($0, f) { gsub(",", "", $1); print $1; exit }' "$tmp/annotate.$1")
+	n=$(sed -n "s/.*(\([0-9]*\) note-on, \([0-9]*\) note-off, \([0-9]*\) CC, \([0-9]*\) bend).*/\\$3/p" "$tmp/counts.$1")
+	if [ -n "$ir" ] && [ -n "$n" ] && [ "$n" -gt 0 ]; then
+		echo $((ir / n))
+	else
+		echo "?"
+	fi
+}
+
+# 3. memory of an offline render
+smf="$tmp/performance.mid"
+"$bench" --write-smf "$smf" --events 300000 >"$tmp/smf.txt"
+smf_bytes=$(wc -c <"$smf")
+rss_note=""
+rss_kb=""
+if ! "$latticed" render --help >/dev/null 2>&1; then
+	rss_note="skipped: $latticed has no render command yet"
+elif ! command -v python3 >/dev/null 2>&1; then
+	rss_note="skipped: python3 is needed to read the peak RSS"
+else
+	rss_kb=$(python3 - "$latticed" render --config "$top/config/latticed.conf" "$smf" "$tmp/out.mid" <<'EOF'
+import resource, subprocess, sys
+done = subprocess.run(sys.argv[1:], stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+if done.returncode != 0:
+    sys.stderr.write(done.stderr.decode(errors="replace"))
+    sys.exit(1)
+print(resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)
+EOF
+	) || rss_note="failed: latticed render exited non-zero (see above)"
+fi
+
+cpu=$(sed -n 's/^model name[[:space:]]*: //p' /proc/cpuinfo 2>/dev/null | head -1)
+echo "machine: ${cpu:-unknown CPU}, $(nproc 2>/dev/null || echo '?') cores, $(uname -m), $(uname -sr)"
+echo "engine_bench: 10^6 messages (chords, pedal, wheel, CCs) as bytes through parser -> engine -> encoder"
+echo
+printf '%-7s %14s %14s %14s %10s %10s\n' method "events/s" "Ir/note-on" "Ir/note-off" "Ir/CC" "Ir/bend"
+for m in bend mts mpe; do
+	if [ "$have_callgrind" = yes ]; then
+		on=$(per_kind "$m" play_note_ons 1)
+		off=$(per_kind "$m" play_note_offs 2)
+		cc=$(per_kind "$m" play_controls 3)
+		pb=$(per_kind "$m" play_wheel 4)
+	else
+		on="-" off="-" cc="-" pb="-"
+	fi
+	printf '%-7s %14s %14s %14s %10s %10s\n' "$m" "$(best_speed "$m")" "$on" "$off" "$cc" "$pb"
+done
+[ "$have_callgrind" = yes ] || echo "(instruction counts skipped: valgrind is not installed)"
+echo
+if [ -n "$rss_kb" ]; then
+	echo "latticed render, $smf_bytes-byte SMF ($(sed -n 's/.*bytes, \([0-9]*\) events/\1/p' "$tmp/smf.txt") events): max RSS $rss_kb KiB"
+else
+	echo "latticed render, $smf_bytes-byte SMF: $rss_note"
+fi
