@@ -244,6 +244,17 @@ static void test_header_variants(void **state)
 	assert_int_equal(s.tracks[0].events[1].kind, SMF_EVENT_ESCAPE);
 	assert_int_equal(s.tracks[0].events[1].tick, 16);
 	smf_free(&s);
+
+	/* a packet with a status byte before its F7 is kept as an event but is
+	 * no SysEx message (MIDI 1.0: F0, data bytes, F7; found by
+	 * tests/fuzz/fuzz_smf) */
+	BYTES(inner, MTHD(0, 1, 0, 96), MTRK(12), 0x00, 0xF0, 0x05, 0x7E, 0x7F, 0x09, 0xFF, 0xF7,
+	      0x00, 0xFF, 0x2F, 0x00);
+	assert_true(smf_read(inner, sizeof inner, &s, &err));
+	assert_int_equal(s.tracks[0].events[0].kind, SMF_EVENT_SYSEX);
+	assert_int_equal(s.tracks[0].events[0].length, 5);
+	assert_int_equal(s.tracks[0].events[0].msg.status, 0);
+	smf_free(&s);
 }
 
 /* Expects smf_read to fail at `offset` with a message containing `words`. */

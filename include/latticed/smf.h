@@ -69,9 +69,9 @@ struct smf_event {
 	enum smf_event_kind kind;
 	uint8_t meta_type;         /* META only */
 	/* MIDI: the channel message as written (velocity 0 kept).
-	 * SYSEX whose bytes end with F7 and fit 65535 bytes: the complete
-	 * message F0 ... F7 (in struct smf's own buffer), usable as is.
-	 * Otherwise status 0. */
+	 * SYSEX whose bytes are data bytes ending with F7 and fit 65535
+	 * bytes: the complete message F0 ... F7 (in struct smf's own
+	 * buffer), usable as is.  Otherwise status 0. */
 	struct midi_msg msg;
 	/* The payload inside struct smf's copy of the file: MIDI: the data
 	 * bytes; SYSEX: the bytes after the length (normally ending in F7);

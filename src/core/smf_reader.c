@@ -220,10 +220,18 @@ static bool read_track(struct track_reader *r)
 	return true;
 }
 
+/* A packet that is a whole SysEx message as MIDI 1.0 defines it: data
+ * bytes and a final F7.  One with a status byte inside is kept as an event
+ * but never handed out as a message (a synth would read it as two). */
 static bool is_complete_sysex(const struct smf_event *ev)
 {
-	return ev->kind == SMF_EVENT_SYSEX && ev->length >= 1 && ev->length < UINT16_MAX &&
-	       ev->data[ev->length - 1] == MIDI_SYSEX_END;
+	if (ev->kind != SMF_EVENT_SYSEX || ev->length < 1 || ev->length >= UINT16_MAX ||
+	    ev->data[ev->length - 1] != MIDI_SYSEX_END)
+		return false;
+	for (uint32_t i = 0; i + 1 < ev->length; i++)
+		if (ev->data[i] & 0x80)
+			return false;
+	return true;
 }
 
 /* Gives each complete SysEx packet a contiguous F0 ... F7 copy. */
