@@ -127,7 +127,7 @@ static void make_performance(struct performance *p, long events)
 	begin_segment(p, NOTE_OFF, tick);
 	for (int i = 0; held && i < 4; i++)
 		put(p, 0x80, held[i], 40);
-	begin_segment(p, CONTROL, tick);
+	begin_segment(p, CONTROL, tick + 10);
 	put(p, 0xB0, 64, 0);
 }
 
