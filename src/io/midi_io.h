@@ -8,8 +8,10 @@
  *     matches the configured name patterns.  It fails with one line saying
  *     what is missing and how to fix it.
  *   - The input side runs on the input thread only: input_fds() gives the
- *     descriptors to poll for POLLIN, or none and a tick in milliseconds
- *     for a backend that must be polled (PortMidi has no descriptor).
+ *     descriptors to poll for POLLIN (with *tick_ms = -1: no tick needed),
+ *     or none and a tick in milliseconds for a backend that must be polled
+ *     (PortMidi has no descriptor).  service_input() may be called at any
+ *     time, with nothing pending too.
  *     service_input() reads everything pending and reports it through the
  *     callbacks: raw MIDI bytes per source, in arrival order (SysEx may
  *     come in several pieces; the daemon's parser per source joins them),
