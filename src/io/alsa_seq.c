@@ -98,6 +98,7 @@ struct midi_io {
 	snd_seq_query_subscribe_t *query;
 	bool resync;
 	unsigned overruns;
+	int input_pool;           /* events the kernel holds for us */
 	unsigned unplaced_events; /* from a source beyond the sixteenth */
 	unsigned connect_failures;
 	int last_connect_error;
@@ -580,6 +581,12 @@ static struct midi_io *alsa_open(const struct midi_io_spec *spec, const struct m
 	snd_seq_set_client_name(io->seq, spec->client_name[0] ? spec->client_name : "latticed");
 	if (snd_seq_set_client_pool_input(io->seq, INPUT_POOL_EVENTS) < 0)
 		snd_seq_set_client_pool_input(io->seq, INPUT_POOL_FALLBACK);
+	snd_seq_client_pool_t *pool;
+	if (snd_seq_client_pool_malloc(&pool) == 0) {
+		if (snd_seq_get_client_pool(io->seq, pool) == 0)
+			io->input_pool = (int)snd_seq_client_pool_get_input_pool(pool);
+		snd_seq_client_pool_free(pool);
+	}
 	snd_seq_set_input_buffer_size(io->seq, INPUT_BUFFER_BYTES);
 	snd_seq_set_output_buffer_size(io->seq, OUTPUT_BUFFER_BYTES);
 
@@ -658,7 +665,8 @@ static void alsa_describe(struct midi_io *io, midi_io_line_fn line, void *contex
 	}
 	append_patterns(&io->spec.input, text, sizeof text);
 	if (io->overruns)
-		appendf(text, sizeof text, "; %u input overruns (events lost)", io->overruns);
+		appendf(text, sizeof text, "; input overruns: %u (events lost; queue of %d events)", io->overruns,
+			io->input_pool);
 	if (io->unplaced_events)
 		appendf(text, sizeof text, "; %u events dropped from sources beyond %d", io->unplaced_events,
 			MIDI_IO_MAX_SOURCES);

@@ -17,9 +17,9 @@
  *   - The device list is read once, by Pm_Initialize(); seeing a device
  *     that appeared later takes Pm_Terminate() and Pm_Initialize(), which
  *     closes every open stream.  Reopening an input loses whatever arrives
- *     in between, possibly a Note Off, so the list is read again (every
- *     2 s, while a configured device is missing) only when no input is
- *     open.  Then missing outputs are found too, and an output whose device
+ *     in between, possibly a Note Off, so the list is read again (while a
+ *     configured device is missing: every 2 s, after a minute every 10 s)
+ *     only when no input is open.  Then missing outputs are found too, and an output whose device
  *     is no longer listed is reported gone.  Once an input is open, devices
  *     that appear later are not seen until latticed restarts.
  *   - A device that disappears is not reported by PortMidi: its stream
@@ -57,7 +57,12 @@
 #include "source_ids.h"
 
 #define TICK_MS 1
+/* Every rescan leaks PortMidi's copies of the device names (PortMidi 217
+ * frees them nowhere, not even in Pm_Terminate: a few hundred bytes), so
+ * after the first minute of waiting the rescans slow down. */
 #define RESCAN_MS 2000
+#define RESCAN_SLOW_MS 10000
+#define RESCAN_FAST_FOR_MS 60000
 #define INPUT_BUFFER_EVENTS 1024
 #define READ_CHUNK 64
 #define MAX_REPORTS 64
@@ -93,6 +98,7 @@ struct midi_io {
 	struct pm_output out[MIDI_IO_MAX_OUTPUTS];
 	struct source_ids sources;
 	int64_t next_scan_ms;
+	int64_t missing_since_ms; /* 0: nothing missing at the last look */
 	unsigned overruns;
 	unsigned scans;
 	char last_error[128];
@@ -455,9 +461,16 @@ static void pm_service_input(struct midi_io *io)
 			more |= got == READ_CHUNK;
 		}
 		if (!more && io->input_count == 0 && now_ms() >= io->next_scan_ms) {
-			if (something_missing(io))
+			int64_t t = now_ms();
+			if (something_missing(io)) {
+				if (!io->missing_since_ms)
+					io->missing_since_ms = t;
 				rescan(io);
-			io->next_scan_ms = now_ms() + RESCAN_MS;
+			} else {
+				io->missing_since_ms = 0;
+			}
+			bool slow = io->missing_since_ms && t - io->missing_since_ms > RESCAN_FAST_FOR_MS;
+			io->next_scan_ms = now_ms() + (slow ? RESCAN_SLOW_MS : RESCAN_MS);
 		}
 		report_count = io->report_count;
 		memcpy(reports, io->reports, sizeof reports[0] * (size_t)report_count);

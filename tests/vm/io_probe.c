@@ -11,7 +11,9 @@
  *       Prints one line per connection event ("source-connected 0 NAME",
  *       "source-gone 0 NAME", "output-connected 0 NAME", "output-gone 0
  *       NAME"), describe() on SIGUSR1, and totals at the end (SIGTERM,
- *       SIGINT or after S seconds, default 120).
+ *       SIGINT or after S seconds, default 120).  SIGUSR2 makes the input
+ *       thread stop reading for --pause seconds (default 4), so that the
+ *       kernel's input queue can overflow.
  *   io_probe BACKEND loop [--in PATTERN]... [--out PATTERN]... [--seconds S]
  *       Waits until a source and output 0 are connected, sends a fixed set
  *       of messages (see `loop_messages`) once and checks that the same
@@ -44,12 +46,15 @@
 #define MESSAGE_MAX 4096
 #define QUEUE_BYTES (1 << 20)
 
-static volatile sig_atomic_t stop_requested, describe_requested;
+static volatile sig_atomic_t stop_requested, describe_requested, pause_requested;
+static double pause_seconds = 4;
 
 static void on_signal(int sig)
 {
 	if (sig == SIGUSR1)
 		describe_requested = 1;
+	else if (sig == SIGUSR2)
+		pause_requested = 1;
 	else
 		stop_requested = 1;
 }
@@ -250,6 +255,15 @@ static void input_round(void)
 	if (poll(fds, (nfds_t)n, timeout) < 0 && errno != EINTR)
 		perror("io_probe: poll");
 	backend->service_input(io);
+	if (pause_requested) {
+		pause_requested = 0;
+		printf("pause: %g s\n", pause_seconds);
+		struct timespec t = { (time_t)pause_seconds,
+				      (long)((pause_seconds - (double)(time_t)pause_seconds) * 1e9) };
+		while (nanosleep(&t, &t) < 0 && errno == EINTR)
+			;
+		printf("pause: over\n");
+	}
 	if (describe_requested) {
 		describe_requested = 0;
 		backend->describe(io, print_line, "describe: ");
@@ -317,7 +331,7 @@ static int run_loop(double seconds)
 static void usage(void)
 {
 	fprintf(stderr, "usage: io_probe BACKEND forward|loop|list|open [--in PATTERN]... [--out PATTERN]... "
-			"[--seconds S] [--verbose]\n");
+			"[--seconds S] [--pause S] [--verbose]\n");
 	exit(EXIT_USAGE);
 }
 
@@ -356,6 +370,8 @@ int main(int argc, char **argv)
 			add_pattern(&spec.outputs[0], argv[++i]);
 		else if (!strcmp(argv[i], "--seconds") && i + 1 < argc)
 			seconds = atof(argv[++i]);
+		else if (!strcmp(argv[i], "--pause") && i + 1 < argc)
+			pause_seconds = atof(argv[++i]);
 		else if (!strcmp(argv[i], "--verbose"))
 			verbose = true;
 		else
@@ -378,6 +394,7 @@ int main(int argc, char **argv)
 	sigaction(SIGINT, &sa, NULL);
 	sigaction(SIGTERM, &sa, NULL);
 	sigaction(SIGUSR1, &sa, NULL);
+	sigaction(SIGUSR2, &sa, NULL);
 
 	struct midi_io_callbacks cb = { .context = NULL, .input = on_input, .event = on_event };
 	io = backend->open(&spec, &cb, err, sizeof err);
