@@ -18,7 +18,7 @@ else
 	echo "build-and-run.sh: installing Debian packages needs root; run it as root or install sudo" >&2
 	exit 1
 fi
-packages="build-essential cmake pkg-config libinih-dev libjson-c-dev"
+packages="build-essential cmake pkg-config libinih-dev libjson-c-dev libasound2-dev libportmidi-dev"
 missing=""
 for p in $packages; do
 	dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed" || missing="$missing $p"

@@ -16,9 +16,12 @@
  *     callbacks: raw MIDI bytes per source, in arrival order (SysEx may
  *     come in several pieces; the daemon's parser per source joins them),
  *     and connection events.  Hotplug (a matching port appearing) is
- *     handled inside service_input().
+ *     handled inside service_input().  Callbacks are only ever called from
+ *     service_input(): connections made by open() are reported by the
+ *     first call.
  *   - The output side runs on the output thread only: send() queues one
- *     complete message for one output without blocking and returns false
+ *     complete message (status byte first: running status is not taken)
+ *     for one output without blocking and returns false
  *     if it cannot (the caller counts a drop); flush() pushes queued
  *     messages out after a batch.
  *   - describe() (input thread) and list() (any thread, no open needed)
