@@ -19,7 +19,9 @@
  * (src/seq/seq_local.h, from memory), and the kernel serialises each read,
  * write and ioctl on its own.  The output thread must therefore use only
  * snd_seq_event_output, snd_seq_drain_output and snd_seq_drop_output_buffer
- * (not snd_seq_event_output_direct, which borrows a scratch buffer).
+ * (not snd_seq_event_output_direct, which borrows a scratch buffer).  The
+ * VM test vm_backends reads and writes 10 000 events/s this way at once,
+ * also under AddressSanitizer.
  *
  * Sources.  A source is a sender's client:port.  It appears when it is
  * subscribed to our input (by us or by anyone else: PORT_SUBSCRIBED) or
