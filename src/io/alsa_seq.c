@@ -339,7 +339,7 @@ static void connect_everything(struct midi_io *io)
 
 static void resync(struct midi_io *io)
 {
-	snd_seq_addr_t senders[MIDI_IO_MAX_SOURCES * 2];
+	snd_seq_addr_t senders[256];
 	int n = query_subscribers(io, io->in_port, SND_SEQ_QUERY_SUBS_WRITE, senders,
 				  (int)(sizeof senders / sizeof senders[0]));
 

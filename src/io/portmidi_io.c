@@ -571,7 +571,7 @@ static void pm_describe(struct midi_io *io, midi_io_line_fn line, void *context)
 	if (io->overruns)
 		appendf(text, sizeof text, "; %u input overflows (events lost)", io->overruns);
 	if (io->input_count > 0)
-		appendf(text, sizeof text, "; devices that appear from now on are not seen (PortMidi)");
+		appendf(text, sizeof text, "; PortMidi sees no device come or go while an input is open");
 	if (io->last_error[0])
 		appendf(text, sizeof text, "; last error: %s", io->last_error);
 	line(context, text);
