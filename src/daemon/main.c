@@ -13,6 +13,7 @@
 #include <unistd.h>
 
 #include "config.h"
+#include "render_cmd.h"
 #include "table_cmd.h"
 
 #define EXIT_USAGE 2
@@ -140,6 +141,106 @@ static int command_table(int argc, char **argv)
 	return rc;
 }
 
+static void render_usage(FILE *f)
+{
+	fprintf(f,
+		"Usage: latticed render [--config FILE] [--output NAME] [--verbose] IN.mid OUT.mid\n"
+		"Retune a Standard MIDI File for one output; '-' is standard input or output.\n"
+		"\n"
+		"  -c, --config FILE  read FILE instead of %s\n"
+		"  -o, --output NAME  retune for the [output NAME] section (default: the first)\n"
+		"  -v, --verbose      print a summary (events, notes, steals) on stderr\n"
+		"  -h, --help         show this help\n",
+		default_config_path);
+}
+
+/* "NAME has no output 'x'; its outputs: 'synth', 'mpe'" on one line */
+static void no_such_output(const struct config *cfg, const char *name)
+{
+	fprintf(stderr, "latticed render: %s has no output '%s'; its output%s:", cfg->path, name,
+		cfg->output_count == 1 ? "" : "s");
+	for (int i = 0; i < cfg->output_count; i++)
+		fprintf(stderr, "%s '%s'", i ? "," : "", cfg->outputs[i].name);
+	fputc('\n', stderr);
+}
+
+static int command_render(int argc, char **argv)
+{
+	static const struct option options[] = {
+		{"config", required_argument, NULL, 'c'},
+		{"output", required_argument, NULL, 'o'},
+		{"verbose", no_argument, NULL, 'v'},
+		{"help", no_argument, NULL, 'h'},
+		{NULL, 0, NULL, 0},
+	};
+	const char *config_path = NULL, *output_name = NULL;
+	bool verbose = false;
+	int opt;
+	while ((opt = getopt_long(argc, argv, "c:o:vh", options, NULL)) != -1) {
+		switch (opt) {
+		case 'c':
+			config_path = optarg;
+			break;
+		case 'o':
+			output_name = optarg;
+			break;
+		case 'v':
+			verbose = true;
+			break;
+		case 'h':
+			render_usage(stdout);
+			return 0;
+		default:
+			fprintf(stderr, "Try 'latticed render --help'.\n");
+			return EXIT_USAGE;
+		}
+	}
+	if (argc - optind < 2) {
+		fprintf(stderr, "latticed render: expected IN.mid and OUT.mid ('-' for standard input or output)\n"
+			"Try 'latticed render --help'.\n");
+		return EXIT_USAGE;
+	}
+	if (argc - optind > 2) {
+		fprintf(stderr, "latticed render: unexpected argument '%s'\nTry 'latticed render --help'.\n",
+			argv[optind + 2]);
+		return EXIT_USAGE;
+	}
+
+	struct config *cfg = malloc(sizeof *cfg);
+	struct tuning_set tunings = {0};
+	bool built = false;
+	int rc = cfg ? load_config(config_path, cfg) : 1;
+	int output = 0;
+	if (rc == 0 && output_name) {
+		output = config_find_output(cfg, output_name);
+		if (output < 0) {
+			no_such_output(cfg, output_name);
+			rc = 1;
+		}
+	}
+	if (rc == 0) {
+		struct config_report report = {0};
+		built = config_build_tunings(cfg, &tunings, &report);
+		print_report(&report);
+		rc = built ? 0 : 1;
+	}
+	if (rc == 0) {
+		struct render_request req = {
+			.cfg = cfg,
+			.output = output,
+			.tunings = &tunings.engine,
+			.in_path = argv[optind],
+			.out_path = argv[optind + 1],
+			.verbose = verbose,
+		};
+		rc = render_run(&req);
+	}
+	if (built)
+		tuning_set_free(&tunings);
+	free(cfg);
+	return rc;
+}
+
 struct command {
 	const char *name;
 	int (*run)(int argc, char **argv);
@@ -148,6 +249,7 @@ struct command {
 
 static const struct command commands[] = {
 	{"table", command_table, "print the lattice, its chords and the key map"},
+	{"render", command_render, "retune a MIDI file"},
 };
 #define COMMAND_COUNT ((int)(sizeof commands / sizeof commands[0]))
 
