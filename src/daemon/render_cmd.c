@@ -33,13 +33,15 @@
 
 enum out_kind { OUT_INPUT, OUT_MIDI, OUT_SYSEX };
 
+/* 16 bytes: a 1 MB file makes half a million of them */
 struct out_event {
 	uint32_t tick;
 	uint8_t kind;              /* enum out_kind */
 	uint8_t status, data[2];   /* OUT_MIDI */
-	uint32_t length;           /* OUT_SYSEX: bytes at arena + at */
-	size_t at;
-	const struct smf_event *input; /* OUT_INPUT */
+	union {
+		const struct smf_event *input;          /* OUT_INPUT */
+		struct { uint32_t at, length; } sysex;  /* OUT_SYSEX: in the arena */
+	} u;
 };
 
 struct out_track {
@@ -105,15 +107,16 @@ static void on_emit(void *context, const struct midi_msg *m)
 	struct render *r = context;
 	struct out_event ev = { .tick = r->tick };
 	if (m->status == MIDI_SYSEX) {
-		if (!grow((void **)&r->arena, &r->arena_capacity,
+		if (r->arena_length + m->sysex_length > UINT32_MAX ||
+		    !grow((void **)&r->arena, &r->arena_capacity,
 			  r->arena_length + m->sysex_length, 1)) {
 			r->out_of_memory = true;
 			return;
 		}
 		memcpy(r->arena + r->arena_length, m->sysex, m->sysex_length);
 		ev.kind = OUT_SYSEX;
-		ev.at = r->arena_length;
-		ev.length = m->sysex_length;
+		ev.u.sysex.at = (uint32_t)r->arena_length;
+		ev.u.sysex.length = m->sysex_length;
 		r->arena_length += m->sysex_length;
 	} else {
 		ev.kind = OUT_MIDI;
@@ -200,7 +203,7 @@ static void feed(struct render *r, size_t track, const struct smf_event *ev)
 	r->track = track;
 	r->tick = ev->tick;
 	if (!engine_hears(ev)) {
-		struct out_event out = { .tick = ev->tick, .kind = OUT_INPUT, .input = ev };
+		struct out_event out = { .tick = ev->tick, .kind = OUT_INPUT, .u.input = ev };
 		push(r, track, &out);
 		return;
 	}
@@ -347,9 +350,10 @@ static bool write_event(struct smf_writer *w, const struct render *r, const stru
 {
 	switch (ev->kind) {
 	case OUT_INPUT:
-		return smf_writer_event(w, ev->input);
+		return smf_writer_event(w, ev->u.input);
 	case OUT_SYSEX: {
-		struct midi_msg m = midi_msg_sysex(r->arena + ev->at, (uint16_t)ev->length);
+		struct midi_msg m = midi_msg_sysex(r->arena + ev->u.sysex.at,
+						   (uint16_t)ev->u.sysex.length);
 		return smf_writer_midi(w, ev->tick, &m);
 	}
 	default: {
