@@ -368,7 +368,7 @@ static bool write_output(const struct render *r, uint8_t **out, size_t *out_leng
 {
 	const struct smf *in = r->in;
 	struct smf_writer w;
-	bool ok = smf_writer_begin(&w, in->format, in->division);
+	bool ok = smf_writer_begin(&w, r->report->format, in->division);
 	for (size_t t = 0; ok && t < in->track_count; t++) {
 		const struct out_track *tr = &r->tracks[t];
 		ok = smf_writer_track_begin(&w);
@@ -395,6 +395,11 @@ bool render_smf(const struct smf *in, const struct engine_spec *spec,
 	*out = NULL;
 	*out_length = 0;
 	struct render r = { .in = in, .report = report };
+	report->format = in->format;
+	if (in->format == 0 && in->track_count == 0)
+		return core_fail(err, "", "byte 10: a format 0 file without a track, nothing to retune");
+	if (in->format == 0 && in->track_count > 1)
+		report->format = 1; /* the tracks are kept; only format 1 may hold them */
 	r.engine = malloc(sizeof *r.engine);
 	r.tracks = calloc(in->track_count ? in->track_count : 1, sizeof *r.tracks);
 	bool ok = r.engine && r.tracks;
@@ -430,14 +435,23 @@ static const char *display_name(const char *path, const char *stdio_name)
 	return smf_file_is_stdio(path) ? stdio_name : path;
 }
 
-static void print_warnings(const char *in_name, const struct render_report *rep,
-			   const struct engine_spec *spec)
+static const char *plural(size_t n, const char *one, const char *many)
+{
+	return n == 1 ? one : many;
+}
+
+static void print_warnings(const char *in_name, const struct smf *in,
+			   const struct render_report *rep, const struct engine_spec *spec)
 {
 	for (size_t i = 0; i < rep->left_out && i < RENDER_LEFT_OUT_SHOWN; i++)
 		fprintf(stderr, "latticed render: %s: %s\n", in_name, rep->left_out_text[i]);
 	if (rep->left_out > RENDER_LEFT_OUT_SHOWN)
 		fprintf(stderr, "latticed render: %s: %zu more events left out\n", in_name,
 			rep->left_out - RENDER_LEFT_OUT_SHOWN);
+	if (rep->format != in->format)
+		fprintf(stderr,
+			"latticed render: %s: warning: a format %u file with %zu tracks (format 0 holds one); written as format %u\n",
+			in_name, in->format, in->track_count, rep->format);
 	size_t hanging = rep->hanging_keys + rep->hanging_pedal_notes;
 	if (hanging)
 		fprintf(stderr,
@@ -448,21 +462,23 @@ static void print_warnings(const char *in_name, const struct render_report *rep,
 	uint32_t n = rep->notices;
 	if (n & NOTICE_BEND_CLAMPED)
 		fprintf(stderr,
-			"latticed render: %s: warning: %u bends clamped: retune plus wheel went beyond the bend range of %d semitones\n",
-			in_name, s->bends_clamped, spec->output.bend_range);
+			"latticed render: %s: warning: %u %s clamped: retune plus wheel went beyond the bend range of %d semitones\n",
+			in_name, s->bends_clamped, plural(s->bends_clamped, "bend", "bends"),
+			spec->output.bend_range);
 	if (n & NOTICE_NOTE_STOLEN)
 		fprintf(stderr,
-			"latticed render: %s: warning: %u notes stolen: more notes at once than the output has channels\n",
-			in_name, s->notes_stolen);
+			"latticed render: %s: warning: %u %s stolen: more notes at once than the output has channels\n",
+			in_name, s->notes_stolen, plural(s->notes_stolen, "note", "notes"));
 	if (n & (NOTICE_NOTE_DROPPED | NOTICE_NOTES_FULL))
 		fprintf(stderr,
-			"latticed render: %s: warning: %u notes dropped: no channel or key was free for them%s\n",
-			in_name, s->notes_dropped,
+			"latticed render: %s: warning: %u %s dropped: no channel or key was free%s\n",
+			in_name, s->notes_dropped, plural(s->notes_dropped, "note", "notes"),
 			(n & NOTICE_NOTES_FULL) ? " (more than " ENGINE_MAX_NOTES_TEXT " notes at once)" : "");
 	if (n & NOTICE_PASSTHROUGH_BLOCKED)
 		fprintf(stderr,
-			"latticed render: %s: warning: %u messages dropped: they are on channels not retuned but used by the output\n",
-			in_name, s->passthrough_blocked);
+			"latticed render: %s: warning: %u %s dropped: on channels not retuned but used by the output\n",
+			in_name, s->passthrough_blocked,
+			plural(s->passthrough_blocked, "message", "messages"));
 }
 
 static void print_summary(const char *in_name, const char *out_name,
@@ -523,7 +539,7 @@ int render_run(const struct render_request *req)
 			fprintf(stderr, "latticed render: %s: %s\n", in_name, err.text);
 		rc = 1;
 	} else {
-		print_warnings(in_name, rep, &spec);
+		print_warnings(in_name, &in, rep, &spec);
 		if (!smf_file_write(req->out_path, out, out_length, &err)) {
 			fprintf(stderr, "latticed render: %s: %s\n", out_name, err.text);
 			rc = 1;

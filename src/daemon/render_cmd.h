@@ -46,6 +46,8 @@ struct render_report {
 	size_t hanging_pedal_notes;  /* released notes a pedal still held at the end */
 	uint32_t hanging_tick;       /* where they were released */
 	size_t left_out;             /* input events no strict file can hold */
+	uint16_t format;             /* of the output: the input's, but a format 0
+	                              * file with several tracks becomes format 1 */
 	char left_out_text[RENDER_LEFT_OUT_SHOWN][RENDER_LINE_MAX]; /* "byte 12: ..." */
 	struct engine_stats engine;  /* summed over the performances */
 	uint32_t notices;            /* engine_notice flags, ORed */
