@@ -887,6 +887,8 @@ static void mode_cc(struct engine *e, int ch, int cc)
 				if (!bit_get(keep, k))
 					bit_put(o->cc_known, k, false);
 			o->bend_known = o->pressure_known = false;
+			if (o->in_pool && o->note_count > 0)
+				do_rebend(e, out_ch, 0, 0); /* the synth centred its bend */
 		}
 		settle_ringing(e, global_of(e, ch));
 		return;
