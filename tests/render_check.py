@@ -304,6 +304,11 @@ class Synth:
             self.ch[0].range = 2.0
             for m in self.members:
                 self.ch[m].range = 48.0
+        elif cc == 121:
+            # Reset All Controllers (MIDI 1.0 / GM RP-015; FluidSynth 2.3 measured):
+            # bend centred, pedal up, RPN selection null; bend range and tuning kept
+            s.bend, s.rpn = 8192, (127, 127)
+            self.control(c, 64, 0)
         elif cc == 120:
             # All Sound Off (MIDI 1.0 channel mode message): silent at once
             for k in [k for k in self.sounding if k[0] == c]:
@@ -383,6 +388,8 @@ def input_performance(tracks, indices, retuned_channel=0):
                 notes[v]["end"] = tick
         elif kind == 0xE0:
             wheel = e.data[0] | (e.data[1] << 7)
+        elif kind == 0xB0 and e.data[0] == 121:
+            wheel = 8192  # Reset All Controllers centres the wheel (MIDI 1.0, RP-015)
         wheel_at[tick] = wheel
     return notes, wheel_at
 
@@ -555,6 +562,8 @@ def performance_tracks():
         # the wheel moves while notes sound: +25 cents, then back
         ch(840, 0xE0, 0x00, 0x48),
         ch(1000, 0xE0, 0x00, 0x44),
+        # reset all controllers while notes are held: wheel centred, pedal up
+        ch(1100, 0xB0, 121, 0),
         ch(1200, 0x80, 74, 64),
         ch(1320, 0xE0, 0x00, 0x40),
         ch(1440, 0x99, 38, 90), ch(1460, 0x89, 38, 0),
