@@ -9,7 +9,7 @@
 # is non-zero if any failed.
 #
 #   tests/run-all.sh              run every stage
-#   tests/run-all.sh native asan  run only stages whose name contains a word
+#   tests/run-all.sh native sanitizers  run only stages whose name contains a word
 set -u
 top=$(cd "$(dirname "$0")/.." && pwd)
 cd "$top" || exit 1

@@ -1,6 +1,295 @@
+/*
+ * Tests of the config reader: the shipped file equals the built-in
+ * defaults and documents every key; every kind of mistake is reported as
+ * FILE:LINE with what was expected, and leaves the caller's config as it
+ * was; continuation lines; tuning build errors point at the right line.
+ * (Behaviour of our own interface: no outside source applies beyond INI
+ * conventions as implemented by inih.)
+ */
+#include <setjmp.h>
 #include <stdarg.h>
 #include <stddef.h>
-#include <setjmp.h>
+#include <stdint.h>
 #include <cmocka.h>
-static void t(void **s){(void)s;}
-int main(void){const struct CMUnitTest x[]={cmocka_unit_test(t)};return cmocka_run_group_tests(x,NULL,NULL);}
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "config.h"
+
+static struct config cfg;
+static struct config_report report;
+static struct tuning tuning;
+
+static bool parse(const char *text)
+{
+	return config_parse(text, strlen(text), "t.conf", &cfg, &report);
+}
+
+/* Parses text expecting failure with exactly one error line containing want. */
+static void expect_error(const char *text, const char *want)
+{
+	config_defaults(&cfg);
+	struct config before = cfg;
+	bool ok = parse(text);
+	if (ok || report.error_count != 1 || !strstr(report.text, want))
+		fail_msg("for\n%s\nwanted one error containing '%s', got (%d):\n%s", text, want,
+			 report.error_count, report.text);
+	assert_memory_equal(&before, &cfg, sizeof cfg); /* nothing half-applied */
+	assert_non_null(strchr(report.text, '\n'));
+	assert_ptr_equal(strchr(report.text, '\n'), report.text + report.length - 1);
+}
+
+static char *read_file(const char *path, size_t *length)
+{
+	FILE *f = fopen(path, "rb");
+	assert_non_null(f);
+	char *buf = malloc(1 << 20);
+	assert_non_null(buf);
+	*length = fread(buf, 1, (1 << 20) - 1, f);
+	buf[*length] = '\0';
+	fclose(f);
+	return buf;
+}
+
+static void shipped_file_is_the_defaults(void **state)
+{
+	(void)state;
+	struct config defaults;
+	config_defaults(&defaults);
+	const char *path = LATTICED_SOURCE_DIR "/config/latticed.conf";
+	assert_true(config_load(path, &cfg, &report));
+	assert_int_equal(report.error_count + report.warning_count, 0);
+	assert_memory_equal(&cfg.tuning.lattice, &defaults.tuning.lattice, sizeof cfg.tuning.lattice);
+	assert_memory_equal(&cfg.tuning.keys, &defaults.tuning.keys, sizeof cfg.tuning.keys);
+	assert_int_equal(cfg.output_count, 1);
+	assert_string_equal(cfg.outputs[0].name, defaults.outputs[0].name);
+	assert_int_equal(cfg.outputs[0].method, defaults.outputs[0].method);
+	assert_int_equal(cfg.outputs[0].channels, defaults.outputs[0].channels);
+	assert_int_equal(cfg.outputs[0].bend_range, defaults.outputs[0].bend_range);
+	/* the default hexany builds: 6 tones, 8 chords */
+	assert_true(config_build_tuning(&cfg, &tuning, &report));
+	assert_int_equal(tuning.lattice.tone_count, 6);
+	assert_int_equal(tuning.lattice.chord_count, 8);
+}
+
+static void shipped_file_documents_every_key(void **state)
+{
+	(void)state;
+	size_t length;
+	char *text = read_file(LATTICED_SOURCE_DIR "/config/latticed.conf", &length);
+	for (int i = 0; i < config_key_count(); i++) {
+		const struct config_key_info *k = config_key_at(i);
+		char line[256], documented[256];
+		snprintf(line, sizeof line, "\n%s = %s", k->key, k->default_text);
+		snprintf(documented, sizeof documented, "; %s:", k->key);
+		if (k->default_text[0] && !strstr(text, line))
+			fail_msg("config/latticed.conf lacks the line '%s = %s'", k->key, k->default_text);
+		if (!strstr(text, documented))
+			fail_msg("config/latticed.conf does not explain '%s' (a comment '; %s: ...')",
+				 k->key, k->key);
+	}
+	/* and each documented default is stated as such */
+	int defaults = 0;
+	for (const char *p = text; (p = strstr(p, "Default:")); p++)
+		defaults++;
+	assert_true(defaults >= config_key_count());
+	free(text);
+}
+
+static void examples_build(void **state)
+{
+	(void)state;
+	const char *names[] = {"eikosany.conf", "tritave.conf", "white-keys.conf"};
+	for (size_t i = 0; i < sizeof names / sizeof names[0]; i++) {
+		char path[512];
+		snprintf(path, sizeof path, "%s/config/examples/%s", LATTICED_SOURCE_DIR, names[i]);
+		if (!config_load(path, &cfg, &report) || !config_build_tuning(&cfg, &tuning, &report))
+			fail_msg("%s: %s", path, report.text);
+		assert_int_equal(report.warning_count, 0);
+	}
+}
+
+static void values_are_read(void **state)
+{
+	(void)state;
+	assert_true(parse("[lattice]\nseeds = 1 3 5 7 9 11 ; six\nchoose = 3\nperiod = 3/1\n"
+			  "unison = 1.3.5\n[pitch]\nroot_key=48\nroot_hz = 130.8128\n"
+			  "[keys]\nlayout = nearest\ntranspose = -12\n"
+			  "[output a]\nmethod = mts\nchannels = 1,3,5-8\nbend_range = 12\n"
+			  "[output b]\n"));
+	assert_int_equal(report.error_count, 0);
+	assert_int_equal(cfg.tuning.lattice.seed_count, 6);
+	assert_string_equal(cfg.tuning.lattice.seed_text[5], "11");
+	assert_int_equal(cfg.tuning.lattice.choose, 3);
+	assert_int_equal(cfg.tuning.lattice.period.num, 3);
+	assert_string_equal(cfg.tuning.unison_text, "1.3.5");
+	assert_int_equal(cfg.tuning.keys.root_key, 48);
+	assert_true(cfg.tuning.keys.root_hz > 130.81 && cfg.tuning.keys.root_hz < 130.82);
+	assert_int_equal(cfg.tuning.keys.layout, KEY_LAYOUT_NEAREST);
+	assert_int_equal(cfg.tuning.keys.transpose, -12);
+	assert_int_equal(cfg.output_count, 2);
+	assert_string_equal(cfg.outputs[0].name, "a");
+	assert_int_equal(cfg.outputs[0].method, OUTPUT_MTS);
+	assert_int_equal(cfg.outputs[0].channels, 0x1 | 0x4 | 0xF0);
+	assert_int_equal(cfg.outputs[0].bend_range, 12);
+	/* an empty [output b] still exists, with the defaults */
+	assert_string_equal(cfg.outputs[1].name, "b");
+	assert_int_equal(cfg.outputs[1].method, OUTPUT_BEND);
+	assert_int_equal(cfg.outputs[1].bend_range, 2);
+}
+
+static void channel_ranges_skip_ten(void **state)
+{
+	(void)state;
+	char buf[64];
+	assert_true(parse("[output s]\nchannels = 2-16\n"));
+	/* GM reserves channel 10 for drums (General MIDI, common practice) */
+	assert_string_equal(config_format_channels(cfg.outputs[0].channels, buf, sizeof buf),
+			    "2-9,11-16");
+	assert_true(parse("[output s]\nchannels = 2-9 10 11-16\n"));
+	assert_string_equal(config_format_channels(cfg.outputs[0].channels, buf, sizeof buf), "2-16");
+	/* no output section at all: one bend output "synth" on 2-9,11-16 */
+	assert_true(parse("[lattice]\nseeds = 1 3 5 7\n"));
+	assert_int_equal(cfg.output_count, 1);
+	assert_string_equal(cfg.outputs[0].name, "synth");
+	assert_string_equal(config_format_channels(cfg.outputs[0].channels, buf, sizeof buf),
+			    "2-9,11-16");
+}
+
+static void continuation_lines(void **state)
+{
+	(void)state;
+	assert_true(parse("[lattice]\nseeds = 1 3 5\n   7 9 11\nchoose = 3\n"));
+	assert_int_equal(cfg.tuning.lattice.seed_count, 6);
+	assert_true(parse("[keys]\nlayout = table\nmap = 0 . 1 .\n  2 3 . 4\n  . 5 . .\n"));
+	assert_true(config_build_tuning(&cfg, &tuning, &report));
+	assert_int_equal(tuning.keymap.keys[57 + 11].state, KEY_SILENT);
+	assert_int_equal(tuning.keymap.keys[57 + 12].tone, 0);
+	assert_int_equal(tuning.keymap.keys[57 + 12].period, 1);
+}
+
+static void errors_name_the_line(void **state)
+{
+	(void)state;
+	expect_error("[lattice]\nseeds = 1 3 5 7\n[tuning]\nx = 1\n",
+		     "t.conf:3: unknown section [tuning], expected [lattice], [pitch], [keys] or [output NAME]");
+	expect_error("[lattice]\nseed = 1 3 5 7\n", "t.conf:2: unknown key 'seed' in [lattice], expected one of: seeds, choose, period, unison");
+	expect_error("[lattice]\n\nchoose = two\n", "t.conf:3: choose is 'two', expected a whole number");
+	expect_error("[pitch]\nroot_key = 128\n", "t.conf:2: root_key is '128', expected a key number from 0 to 127");
+	expect_error("[pitch]\nroot_hz = -5\n", "t.conf:2: root_hz is '-5'");
+	expect_error("[pitch]\nroot_hz = 440Hz\n", "t.conf:2: root_hz is '440Hz'");
+	expect_error("[lattice]\nperiod = 1/2\n", "t.conf:2: period is '1/2', expected a ratio above 1");
+	expect_error("[lattice]\nseeds = 1 3 0 7\n", "t.conf:2: seed '0' is not a positive whole number or ratio");
+	expect_error("[lattice]\nseeds = 1\n", "t.conf:2: seeds has 1 values, expected 2 to 12");
+	expect_error("[lattice]\nseeds = 1 2 3 4 5 6 7 8 9 10 11 12 13\n", "t.conf:2: seeds has more than 12 values");
+	expect_error("[keys]\nlayout = spiral\n", "t.conf:2: layout is 'spiral', expected sequential, nearest or table");
+	expect_error("[keys]\ntranspose = 1\n\ntranspose = 2\n", "t.conf:4: 'transpose' is already set on line 2");
+	expect_error("[output synth]\nmethod = cv\n", "t.conf:2: method is 'cv', expected bend, mts or mpe");
+	expect_error("[output synth]\nchannels = 0-3\n", "t.conf:2: channels is '0-3'");
+	expect_error("[output synth]\nchannels = 16-2\n", "t.conf:2: channels is '16-2'");
+	expect_error("[output synth]\nbend_range = 0\n", "t.conf:2: bend_range is '0', expected whole semitones from 1 to 96");
+	expect_error("[output my synth]\nmethod = bend\n", "t.conf:1: output name 'my synth' is not usable as a port name");
+	expect_error("[output]\n", "t.conf:1: [output] has no name");
+	expect_error("[lattice]\nthis line has no equals sign\n", "t.conf:2: cannot read this line");
+	char longline[400];
+	snprintf(longline, sizeof longline, "[lattice]\n; %0300d\nseeds = 1 3 5 7\n", 0);
+	expect_error(longline, "t.conf:2: line is 302 characters long, expected at most 198");
+}
+
+static void several_errors_each_on_a_line(void **state)
+{
+	(void)state;
+	config_defaults(&cfg);
+	assert_false(parse("[lattice]\nchoose = x\n[pitch]\nroot_key = -1\nroot_hz = 0\n"));
+	assert_int_equal(report.error_count, 3);
+	assert_non_null(strstr(report.text, "t.conf:2: "));
+	assert_non_null(strstr(report.text, "\nt.conf:4: "));
+	assert_non_null(strstr(report.text, "\nt.conf:5: "));
+}
+
+static void build_errors_name_the_line(void **state)
+{
+	(void)state;
+	struct {
+		const char *text, *want;
+	} cases[] = {
+		{"[lattice]\nseeds = 1 3 5 7\nchoose = 4\n",
+		 "t.conf:3: choose is 4, expected a whole number from 1 to 3"},
+		{"[lattice]\nseeds = 1 3 5 7\n\nunison = 1.9\n",
+		 "t.conf:4: unison '1.9' names a seed that is not in seeds"},
+		{"[lattice]\nseeds = 1 3 5 7\nunison = 1.3.5\n",
+		 "t.conf:3: unison names 3 seeds, expected 2"},
+		{"[keys]\nlayout = table\n", "t.conf:2: layout = table needs a map"},
+		{"[keys]\nlayout = table\nmap = 0 1 2 9\n",
+		 "t.conf:3: slot '9' names tone 9, expected a tone from 0 to 5"},
+		{"[keys]\nlayout = table\nmap = 0 1 2 3.11\n",
+		 "t.conf:3: slot '3.11' names no tone of the set"},
+		{"[keys]\nlayout = table\nmap = 0 1+x\n", "t.conf:3: '1+x' has a bad period shift"},
+		{"[lattice]\nseeds = 1 3 5 7 9 11\n[keys]\nlayout = nearest\n",
+		 "t.conf:4: the nearest layout fits at most 12 tones per period"},
+		{"[lattice]\nseeds = 1 3 8000000000000000001 7\n",
+		 "t.conf:2: the product 3.8000000000000000001 overflows 64-bit exact arithmetic"},
+	};
+	for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+		if (!parse(cases[i].text))
+			fail_msg("parse failed: %s", report.text);
+		bool ok = config_build_tuning(&cfg, &tuning, &report);
+		if (ok || report.error_count != 1 || !strstr(report.text, cases[i].want))
+			fail_msg("for\n%s\nwanted '%s', got:\n%s", cases[i].text, cases[i].want, report.text);
+	}
+}
+
+static void map_slots_by_label(void **state)
+{
+	(void)state;
+	assert_true(parse("[pitch]\nroot_key = 60\n[keys]\nlayout = table\nmap = 1.3 . 3.5-1 5.7+1\n"));
+	assert_true(config_build_tuning(&cfg, &tuning, &report));
+	assert_int_equal(tuning.keymap.keys[60].tone, 3);      /* 1.3 = 3/2 */
+	assert_int_equal(tuning.keymap.keys[61].state, KEY_SILENT);
+	assert_int_equal(tuning.keymap.keys[62].tone, 5);      /* 3.5 = 15/8 */
+	assert_int_equal(tuning.keymap.keys[62].period, -1);
+	assert_int_equal(tuning.keymap.keys[63].tone, 0);      /* 5.7 = 35/32 */
+	assert_int_equal(tuning.keymap.keys[63].period, 1);
+	/* a map without layout = table is a warning, not an error */
+	assert_true(parse("[keys]\nmap = 0 1\n"));
+	assert_int_equal(report.warning_count, 1);
+	assert_non_null(strstr(report.text, "t.conf:2: warning: map is set but layout is sequential"));
+}
+
+static void merge_warning(void **state)
+{
+	(void)state;
+	assert_true(parse("[lattice]\nseeds = 1 3 9 27\n"));
+	assert_true(config_build_tuning(&cfg, &tuning, &report));
+	assert_int_equal(report.warning_count, 1);
+	assert_non_null(strstr(report.text,
+			       "t.conf:2: warning: products 1.27 and 3.9 are the same tone 27/16; merged into one"));
+}
+
+static void unreadable_file(void **state)
+{
+	(void)state;
+	assert_false(config_load("/nonexistent/latticed.conf", &cfg, &report));
+	assert_int_equal(report.error_count, 1);
+	assert_non_null(strstr(report.text, "/nonexistent/latticed.conf: cannot open: No such file or directory"));
+}
+
+int main(void)
+{
+	const struct CMUnitTest tests[] = {
+		cmocka_unit_test(shipped_file_is_the_defaults),
+		cmocka_unit_test(shipped_file_documents_every_key),
+		cmocka_unit_test(examples_build),
+		cmocka_unit_test(values_are_read),
+		cmocka_unit_test(channel_ranges_skip_ten),
+		cmocka_unit_test(continuation_lines),
+		cmocka_unit_test(errors_name_the_line),
+		cmocka_unit_test(several_errors_each_on_a_line),
+		cmocka_unit_test(build_errors_name_the_line),
+		cmocka_unit_test(map_slots_by_label),
+		cmocka_unit_test(merge_warning),
+		cmocka_unit_test(unreadable_file),
+	};
+	return cmocka_run_group_tests(tests, NULL, NULL);
+}

@@ -1,9 +1,10 @@
 /*
  * lattice: builds a combination product set and its chords.
  *
- * Subsets of seeds are bit masks, enumerated in increasing mask order, so
- * "the first product" of a merged tone is well defined and the build is
- * deterministic.  Every product is kept reduced into the period after each
+ * Subsets of seeds are bit masks, enumerated in lexicographic order of
+ * their seed positions (1.3 before 1.5 before 3.5), so "the first product"
+ * of a merged tone is the one a person would list first, and chords come
+ * out in the order people write them.  Every product is kept reduced into the period after each
  * multiplication, which keeps the terms small (the reduced value of a
  * product never needs more than the seeds' own digits plus the period's
  * powers) and makes overflow a real property of the set, not of the order
@@ -31,6 +32,49 @@ int64_t binomial(int n, int k)
 static int popcount16(unsigned v)
 {
 	return __builtin_popcount(v & 0xFFFFu);
+}
+
+/*
+ * Lexicographic walk over the size-k subsets of n seeds.  `index` holds the
+ * current subset's positions; returns its mask, or -1 when done.
+ */
+struct subset_walk {
+	int n, k;
+	int index[LATTICE_MAX_SEEDS];
+	bool started, done;
+};
+
+static void subset_walk_init(struct subset_walk *w, int n, int k)
+{
+	w->n = n;
+	w->k = k;
+	w->started = false;
+	w->done = k < 0 || k > n;
+	for (int i = 0; i < k && i < LATTICE_MAX_SEEDS; i++)
+		w->index[i] = i;
+}
+
+static int subset_walk_next(struct subset_walk *w)
+{
+	if (w->done)
+		return -1;
+	if (w->started) {
+		int i = w->k - 1;
+		while (i >= 0 && w->index[i] == w->n - w->k + i)
+			i--;
+		if (i < 0) {
+			w->done = true;
+			return -1;
+		}
+		w->index[i]++;
+		for (int j = i + 1; j < w->k; j++)
+			w->index[j] = w->index[j - 1] + 1;
+	}
+	w->started = true;
+	int mask = 0;
+	for (int i = 0; i < w->k; i++)
+		mask |= 1 << w->index[i];
+	return mask;
 }
 
 char *lattice_label(const struct lattice_spec *spec, uint16_t seeds,
@@ -269,9 +313,9 @@ bool lattice_build(struct lattice *out, const struct lattice_spec *spec,
 
 	struct product products[LATTICE_MAX_TONES];
 	int count = 0;
-	for (unsigned mask = 0; mask < (1u << n); mask++) {
-		if (popcount16(mask) != k)
-			continue;
+	struct subset_walk walk;
+	subset_walk_init(&walk, n, k);
+	for (int mask; (mask = subset_walk_next(&walk)) >= 0;) {
 		struct ratio r;
 		char label[LATTICE_LABEL_MAX];
 		if (!product_of(spec, (uint16_t)mask, &r) ||
@@ -308,9 +352,8 @@ bool lattice_build(struct lattice *out, const struct lattice_spec *spec,
 	}
 
 	int16_t members[LATTICE_MAX_CHORD_TONES];
-	for (unsigned s = 0; s < (1u << n); s++) {
-		if (popcount16(s) != k - 1)
-			continue;
+	subset_walk_init(&walk, n, k - 1);
+	for (int s; (s = subset_walk_next(&walk)) >= 0;) {
 		int m = 0;
 		for (int x = 0; x < n; x++)
 			if (!(s & (1u << x)))
@@ -318,9 +361,8 @@ bool lattice_build(struct lattice *out, const struct lattice_spec *spec,
 		add_chord(lat, CHORD_HARMONIC, (uint16_t)s, members, m);
 	}
 	lat->harmonic_count = lat->chord_count;
-	for (unsigned t = 0; t < (1u << n); t++) {
-		if (popcount16(t) != k + 1)
-			continue;
+	subset_walk_init(&walk, n, k + 1);
+	for (int t; (t = subset_walk_next(&walk)) >= 0;) {
 		int m = 0;
 		for (int x = 0; x < n; x++)
 			if (t & (1u << x))

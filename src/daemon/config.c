@@ -93,6 +93,16 @@ const char *output_method_name(enum output_method method)
 	return "?";
 }
 
+/* Copies src into dst (size bytes), cutting it short if it does not fit. */
+static void copy_text(char *dst, size_t size, const char *src)
+{
+	size_t len = strlen(src);
+	if (len >= size)
+		len = size - 1;
+	memcpy(dst, src, len);
+	dst[len] = '\0';
+}
+
 /* ---- report ------------------------------------------------------------ */
 
 static void report_add(struct config_report *r, bool is_error,
@@ -218,7 +228,7 @@ static void inspect_section_line(struct collector *c, const char *line)
 	struct entry *e = new_entry(c);
 	if (!e)
 		return;
-	snprintf(e->section, sizeof e->section, "%s", name);
+	copy_text(e->section, sizeof e->section, name);
 	e->in_known_section = true;
 }
 
@@ -279,9 +289,9 @@ static int collect(void *user, const char *section, const char *name,
 	struct entry *e = new_entry(c);
 	if (!e)
 		return 1;
-	snprintf(e->section, sizeof e->section, "%s", section);
-	snprintf(e->key, sizeof e->key, "%s", name);
-	snprintf(e->value, sizeof e->value, "%s", value);
+	copy_text(e->section, sizeof e->section, section);
+	copy_text(e->key, sizeof e->key, name);
+	copy_text(e->value, sizeof e->value, value);
 	e->in_known_section = c->section_known;
 	return 1;
 }
@@ -349,7 +359,7 @@ static bool parse_seeds(struct interp *in, const struct entry *e,
 {
 	char buf[ENTRY_VALUE_MAX];
 	char *words[LATTICE_MAX_SEEDS + 1];
-	snprintf(buf, sizeof buf, "%s", e->value);
+	copy_text(buf, sizeof buf, e->value);
 	int n = split_words(buf, words, LATTICE_MAX_SEEDS);
 	if (n < 2 || n > LATTICE_MAX_SEEDS) {
 		fail(in, e->line, "seeds has %s%d values, expected 2 to %d positive whole numbers or ratios, e.g. 1 3 5 7",
@@ -380,7 +390,7 @@ static bool parse_channels(const char *text, uint16_t *out)
 {
 	char buf[ENTRY_VALUE_MAX];
 	char *words[64];
-	snprintf(buf, sizeof buf, "%s", text);
+	copy_text(buf, sizeof buf, text);
 	int n = split_words(buf, words, 63);
 	if (n < 1 || n > 63)
 		return false;
@@ -457,7 +467,7 @@ static bool valid_port_name(const char *name)
 static struct output_config *output_for(struct interp *in, const struct entry *e)
 {
 	char name[64];
-	snprintf(name, sizeof name, "%s", e->section + 6);
+	copy_text(name, sizeof name, e->section + 6);
 	trim(name);
 	struct output_config *o = output_named(in->cfg, name);
 	if (o)
@@ -483,7 +493,7 @@ static struct output_config *output_for(struct interp *in, const struct entry *e
 	}
 	o = &in->cfg->outputs[in->cfg->output_count++];
 	output_defaults(o);
-	snprintf(o->name, sizeof o->name, "%s", name);
+	copy_text(o->name, sizeof o->name, name);
 	o->line = e->line;
 	return o;
 }
@@ -548,8 +558,8 @@ static void apply(struct interp *in, const struct key_def *def,
 			fail(in, e->line, "unison is too long, expected %s", def->info.expected);
 			return;
 		}
-		snprintf(t->unison_text, sizeof t->unison_text, "%s",
-			 strcmp(v, "none") == 0 ? "" : v);
+		copy_text(t->unison_text, sizeof t->unison_text,
+			  strcmp(v, "none") == 0 ? "" : v);
 		t->lines.unison = e->line;
 		return;
 	case K_ROOT_KEY:
@@ -587,7 +597,7 @@ static void apply(struct interp *in, const struct key_def *def,
 			     CONFIG_MAP_TEXT_MAX - 1, KEYMAP_TABLE_MAX);
 			return;
 		}
-		snprintf(t->map_text, sizeof t->map_text, "%s", v);
+		copy_text(t->map_text, sizeof t->map_text, v);
 		t->lines.map = e->line;
 		return;
 	case K_TRANSPOSE:
@@ -631,7 +641,7 @@ static void apply_default(struct interp *in, const char *family,
 			continue;
 		struct entry e;
 		memset(&e, 0, sizeof e);
-		snprintf(e.value, sizeof e.value, "%s", def->info.default_text);
+		copy_text(e.value, sizeof e.value, def->info.default_text);
 		apply(in, def, &e, out);
 	}
 }
@@ -726,7 +736,7 @@ bool config_parse(const char *text, size_t length, const char *path,
 		report_add(report, true, path, 0, "out of memory reading the config");
 
 	config_defaults(cfg);
-	snprintf(cfg->path, sizeof cfg->path, "%s", path);
+	copy_text(cfg->path, sizeof cfg->path, path);
 	cfg->output_count = 0;
 
 	struct interp in = {.path = path, .cfg = cfg, .report = report};
@@ -815,7 +825,7 @@ static bool parse_slot(const struct lattice *lat, const char *word,
 		return true;
 	}
 	char name[LATTICE_LABEL_MAX];
-	snprintf(name, sizeof name, "%s", word);
+	copy_text(name, sizeof name, word);
 	long shift = 0;
 	char *sign = strpbrk(name, "+-");
 	if (sign) {
@@ -891,7 +901,7 @@ bool config_build_tuning(const struct config *cfg, struct tuning *out,
 		}
 		char buf[CONFIG_MAP_TEXT_MAX];
 		char *words[KEYMAP_TABLE_MAX + 1];
-		snprintf(buf, sizeof buf, "%s", t->map_text);
+		copy_text(buf, sizeof buf, t->map_text);
 		int n = split_words(buf, words, KEYMAP_TABLE_MAX);
 		if (n > KEYMAP_TABLE_MAX) {
 			report_add(report, true, cfg->path, t->lines.map,

@@ -41,12 +41,7 @@ static int load_config(const char *path, struct config *cfg)
 	}
 	bool ok = config_load(path, cfg, &report);
 	print_report(&report);
-	if (!ok) {
-		fprintf(stderr, "latticed: %s not loaded (%d error%s)\n", path,
-			report.error_count, report.error_count == 1 ? "" : "s");
-		return 1;
-	}
-	return 0;
+	return ok ? 0 : 1;
 }
 
 static int build_tuning(const struct config *cfg, struct tuning **out)
