@@ -100,6 +100,10 @@ file(WRITE "${_pkg_out}/copyright"
   "${_text}")
 install(FILES "${_pkg_out}/copyright" DESTINATION "${_docdir}")
 
+# Lintian overrides, each with its reason in the file.
+install(FILES "${PROJECT_SOURCE_DIR}/packaging/deb/lintian-overrides"
+        DESTINATION "${CMAKE_INSTALL_DATAROOTDIR}/lintian/overrides" RENAME ${PROJECT_NAME})
+
 # A package built from this tree is a native Debian package, so its
 # changelog is changelog.gz (Debian policy 12.7).  Its date honours
 # SOURCE_DATE_EPOCH, so a package can be rebuilt byte for byte.
@@ -187,4 +191,5 @@ set(CPACK_DEBIAN_PACKAGE_CONTROL_STRICT_PERMISSION ON)
 set(CPACK_PRE_BUILD_SCRIPTS "${PROJECT_SOURCE_DIR}/cmake/PackagingConffiles.cmake")
 set(CPACK_LATTICED_CONFFILES "${_pkg_out}/deb/conffiles")
 set(CPACK_LATTICED_INSTALL_PREFIX "${CMAKE_INSTALL_PREFIX}")
+set(CPACK_LATTICED_STRIP "${CMAKE_STRIP}")
 include(CPack)

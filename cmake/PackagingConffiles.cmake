@@ -1,6 +1,9 @@
 # Run by cpack after it has installed into its staging tree and before it
 # builds the package (CPACK_PRE_BUILD_SCRIPTS).
 #
+# Strips the binaries the way debhelper's dh_strip does (cpack's own strip
+# leaves the compiler's .comment and .note sections).
+#
 # Writes the Debian conffiles list: every file the package ships under
 # /etc, so dpkg keeps a changed config on upgrade and removal (Debian
 # policy 10.7.2, which debhelper's dh_installdeb applies the same way).
@@ -19,3 +22,15 @@ foreach(f IN LISTS _etc_files)
   string(APPEND _list "/${f}\n")
 endforeach()
 file(WRITE "${CPACK_LATTICED_CONFFILES}" "${_list}")
+
+if(CPACK_LATTICED_STRIP)
+  file(GLOB _binaries "${CPACK_TEMPORARY_DIRECTORY}/usr/bin/*")
+  foreach(b IN LISTS _binaries)
+    execute_process(COMMAND "${CPACK_LATTICED_STRIP}" --remove-section=.comment
+                            --remove-section=.note --strip-unneeded "${b}"
+                    RESULT_VARIABLE rc)
+    if(NOT rc EQUAL 0)
+      message(FATAL_ERROR "${CPACK_LATTICED_STRIP} failed on ${b}")
+    endif()
+  endforeach()
+endif()
