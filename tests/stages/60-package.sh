@@ -140,11 +140,16 @@ for page in man8/latticed.8.gz man5/latticed.conf.5.gz; do
 		gzip -t "$root/usr/share/man/$page" || fail "man page $page missing or not gzip"
 done
 
-# Units: recorded on install, so a purge removes the links even of a
-# unit the admin enabled.  Simulate that admin with deb-systemd-helper.
-units=$(dpkg-deb -c "$deb" | awk '{ print $6 }' | grep '^\./lib/systemd/system/[^/@]*\.service$' || true)
+# Units: recorded on install, so that a purge removes the links of a
+# unit the admin enabled.  Play that admin: make the links
+# `systemctl enable` makes for WantedBy= (minbase has no systemctl).
+units=$(dpkg-deb -c "$deb" | awk '{ print $6 }' | sed -n 's|^\./lib/systemd/system/\([^/@]*\.service\)$|\1|p')
 for u in $units; do
-	in_root deb-systemd-helper enable "$(basename "$u")" || fail "cannot enable $(basename "$u")"
+	for target in $(sed -n 's/^WantedBy=//p' "$root/lib/systemd/system/$u"); do
+		mkdir -p "$root/etc/systemd/system/$target.wants"
+		ln -s "/lib/systemd/system/$u" "$root/etc/systemd/system/$target.wants/$u"
+		echo "enabled $u for $target"
+	done
 done
 
 echo "--- remove"
