@@ -5,7 +5,8 @@
 # documents can arrive in any order without editing this file:
 #   doc/*.[1-8]          gzip -9n'd into share/man/manN (Debian policy 12.1)
 #   systemd/*.service    (and .socket/.timer/.path; NAME.in files are filled
-#                        in with @VAR@ first) into LATTICED_SYSTEMD_UNITDIR
+#                        in with @VAR@ first, e.g. @CMAKE_INSTALL_FULL_BINDIR@)
+#                        into LATTICED_SYSTEMD_UNITDIR
 #   README.md            share/doc/latticed/
 #   config/examples/*    share/doc/latticed/examples/
 #   LICENSE              as share/doc/latticed/copyright (Debian's format)
