@@ -60,15 +60,15 @@ static void shipped_file_is_the_defaults(void **state)
 	const char *path = LATTICED_SOURCE_DIR "/config/latticed.conf";
 	assert_true(config_load(path, &cfg, &report));
 	assert_int_equal(report.error_count + report.warning_count, 0);
-	assert_memory_equal(&cfg.tuning.lattice, &defaults.tuning.lattice, sizeof cfg.tuning.lattice);
-	assert_memory_equal(&cfg.tuning.keys, &defaults.tuning.keys, sizeof cfg.tuning.keys);
+	assert_memory_equal(&cfg.presets[0].lattice, &defaults.presets[0].lattice, sizeof cfg.presets[0].lattice);
+	assert_memory_equal(&cfg.presets[0].keys, &defaults.presets[0].keys, sizeof cfg.presets[0].keys);
 	assert_int_equal(cfg.output_count, 1);
 	assert_string_equal(cfg.outputs[0].name, defaults.outputs[0].name);
 	assert_int_equal(cfg.outputs[0].method, defaults.outputs[0].method);
 	assert_int_equal(cfg.outputs[0].channels, defaults.outputs[0].channels);
 	assert_int_equal(cfg.outputs[0].bend_range, defaults.outputs[0].bend_range);
 	/* the default hexany builds: 6 tones, 8 chords */
-	assert_true(config_build_tuning(&cfg, &tuning, &report));
+	assert_true(config_build_tuning(&cfg, 0, &tuning, &report));
 	assert_int_equal(tuning.lattice.tone_count, 6);
 	assert_int_equal(tuning.lattice.chord_count, 8);
 }
@@ -104,7 +104,7 @@ static void examples_build(void **state)
 	for (size_t i = 0; i < sizeof names / sizeof names[0]; i++) {
 		char path[512];
 		snprintf(path, sizeof path, "%s/config/examples/%s", LATTICED_SOURCE_DIR, names[i]);
-		if (!config_load(path, &cfg, &report) || !config_build_tuning(&cfg, &tuning, &report))
+		if (!config_load(path, &cfg, &report) || !config_build_tuning(&cfg, 0, &tuning, &report))
 			fail_msg("%s: %s", path, report.text);
 		assert_int_equal(report.warning_count, 0);
 	}
@@ -119,23 +119,23 @@ static void values_are_read(void **state)
 			  "[output a]\nmethod = mts\nchannels = 1,3,5-8\nbend_range = 12\n"
 			  "[output b]\n"));
 	assert_int_equal(report.error_count, 0);
-	assert_int_equal(cfg.tuning.lattice.seed_count, 6);
-	assert_string_equal(cfg.tuning.lattice.seed_text[5], "11");
-	assert_int_equal(cfg.tuning.lattice.choose, 3);
-	assert_int_equal(cfg.tuning.lattice.period.num, 3);
-	assert_string_equal(cfg.tuning.unison_text, "1.3.5");
-	assert_int_equal(cfg.tuning.keys.root_key, 48);
-	assert_true(cfg.tuning.keys.root_hz > 130.81 && cfg.tuning.keys.root_hz < 130.82);
-	assert_int_equal(cfg.tuning.keys.layout, KEY_LAYOUT_NEAREST);
-	assert_int_equal(cfg.tuning.keys.transpose, -12);
+	assert_int_equal(cfg.presets[0].lattice.seed_count, 6);
+	assert_string_equal(cfg.presets[0].lattice.seed_text[5], "11");
+	assert_int_equal(cfg.presets[0].lattice.choose, 3);
+	assert_int_equal(cfg.presets[0].lattice.period.num, 3);
+	assert_string_equal(cfg.presets[0].unison_text, "1.3.5");
+	assert_int_equal(cfg.presets[0].keys.root_key, 48);
+	assert_true(cfg.presets[0].keys.root_hz > 130.81 && cfg.presets[0].keys.root_hz < 130.82);
+	assert_int_equal(cfg.presets[0].keys.layout, KEY_LAYOUT_NEAREST);
+	assert_int_equal(cfg.presets[0].keys.transpose, -12);
 	assert_int_equal(cfg.output_count, 2);
 	assert_string_equal(cfg.outputs[0].name, "a");
-	assert_int_equal(cfg.outputs[0].method, OUTPUT_MTS);
+	assert_int_equal(cfg.outputs[0].method, RETUNE_MTS);
 	assert_int_equal(cfg.outputs[0].channels, 0x1 | 0x4 | 0xF0);
 	assert_int_equal(cfg.outputs[0].bend_range, 12);
 	/* an empty [output b] still exists, with the defaults */
 	assert_string_equal(cfg.outputs[1].name, "b");
-	assert_int_equal(cfg.outputs[1].method, OUTPUT_BEND);
+	assert_int_equal(cfg.outputs[1].method, RETUNE_BEND);
 	assert_int_equal(cfg.outputs[1].bend_range, 2);
 }
 
@@ -161,9 +161,9 @@ static void continuation_lines(void **state)
 {
 	(void)state;
 	assert_true(parse("[lattice]\nseeds = 1 3 5\n   7 9 11\nchoose = 3\n"));
-	assert_int_equal(cfg.tuning.lattice.seed_count, 6);
+	assert_int_equal(cfg.presets[0].lattice.seed_count, 6);
 	assert_true(parse("[keys]\nlayout = table\nmap = 0 . 1 .\n  2 3 . 4\n  . 5 . .\n"));
-	assert_true(config_build_tuning(&cfg, &tuning, &report));
+	assert_true(config_build_tuning(&cfg, 0, &tuning, &report));
 	assert_int_equal(tuning.keymap.keys[57 + 11].state, KEY_SILENT);
 	assert_int_equal(tuning.keymap.keys[57 + 12].tone, 0);
 	assert_int_equal(tuning.keymap.keys[57 + 12].period, 1);
@@ -173,7 +173,7 @@ static void errors_name_the_line(void **state)
 {
 	(void)state;
 	expect_error("[lattice]\nseeds = 1 3 5 7\n[tuning]\nx = 1\n",
-		     "t.conf:3: unknown section [tuning], expected [lattice], [pitch], [keys] or [output NAME]");
+		     "t.conf:3: unknown section [tuning], expected [lattice], [pitch], [keys], [input], [control], [output NAME] or [preset NAME]");
 	expect_error("[lattice]\nseed = 1 3 5 7\n", "t.conf:2: unknown key 'seed' in [lattice], expected one of: seeds, choose, period, unison");
 	expect_error("[lattice]\n\nchoose = two\n", "t.conf:3: choose is 'two', expected a whole number");
 	expect_error("[pitch]\nroot_key = 128\n", "t.conf:2: root_key is '128', expected a key number from 0 to 127");
@@ -234,7 +234,7 @@ static void build_errors_name_the_line(void **state)
 	for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
 		if (!parse(cases[i].text))
 			fail_msg("parse failed: %s", report.text);
-		bool ok = config_build_tuning(&cfg, &tuning, &report);
+		bool ok = config_build_tuning(&cfg, 0, &tuning, &report);
 		if (ok || report.error_count != 1 || !strstr(report.text, cases[i].want))
 			fail_msg("for\n%s\nwanted '%s', got:\n%s", cases[i].text, cases[i].want, report.text);
 	}
@@ -244,7 +244,7 @@ static void map_slots_by_label(void **state)
 {
 	(void)state;
 	assert_true(parse("[pitch]\nroot_key = 60\n[keys]\nlayout = table\nmap = 1.3 . 3.5-1 5.7+1\n"));
-	assert_true(config_build_tuning(&cfg, &tuning, &report));
+	assert_true(config_build_tuning(&cfg, 0, &tuning, &report));
 	assert_int_equal(tuning.keymap.keys[60].tone, 3);      /* 1.3 = 3/2 */
 	assert_int_equal(tuning.keymap.keys[61].state, KEY_SILENT);
 	assert_int_equal(tuning.keymap.keys[62].tone, 5);      /* 3.5 = 15/8 */
@@ -261,10 +261,103 @@ static void merge_warning(void **state)
 {
 	(void)state;
 	assert_true(parse("[lattice]\nseeds = 1 3 9 27\n"));
-	assert_true(config_build_tuning(&cfg, &tuning, &report));
+	assert_true(config_build_tuning(&cfg, 0, &tuning, &report));
 	assert_int_equal(report.warning_count, 1);
 	assert_non_null(strstr(report.text,
 			       "t.conf:2: warning: products 1.27 and 3.9 are the same tone 27/16; merged into one"));
+}
+
+static void presets_inherit_the_main_tuning(void **state)
+{
+	(void)state;
+	/* a preset may come before the main keys it inherits */
+	assert_true(parse("[preset wide]\nseeds = 1 3 5 7 9\n"
+			  "[preset high]\nroot_hz = 440\n"
+			  "[pitch]\nroot_key = 60\nroot_hz = 261.6256\n"
+			  "[lattice]\nchoose = 2\n"));
+	assert_int_equal(cfg.preset_count, 3);
+	assert_string_equal(cfg.presets[0].name, "main");
+	assert_string_equal(cfg.presets[1].name, "wide");
+	assert_int_equal(cfg.presets[1].lattice.seed_count, 5);
+	assert_int_equal(cfg.presets[1].keys.root_key, 60);
+	assert_true(cfg.presets[1].keys.root_hz > 261.6 && cfg.presets[1].keys.root_hz < 261.7);
+	assert_int_equal(cfg.presets[2].lattice.seed_count, 4);
+	assert_true(cfg.presets[2].keys.root_hz == 440.0);
+	assert_int_equal(config_find_preset(&cfg, "high"), 2);
+	assert_int_equal(config_find_preset(&cfg, "none"), -1);
+	struct tuning_set set;
+	assert_true(config_build_tunings(&cfg, &set, &report));
+	assert_int_equal(set.count, 3);
+	assert_int_equal(set.engine.count, 3);
+	assert_int_equal(set.tunings[1].lattice.tone_count, 10);
+	assert_string_equal(set.engine.presets[2].name, "high");
+	tuning_set_free(&set);
+	/* a preset key that is not a tuning key is named as unknown */
+	expect_error("[preset a]\nmethod = mts\n", "t.conf:2: unknown key 'method' in [preset a], expected one of: seeds, choose");
+	expect_error("[preset]\n", "t.conf:1: [preset] has no name");
+	/* build errors in a preset point at the preset's line */
+	assert_true(parse("[preset bad]\n\nchoose = 4\n"));
+	assert_false(config_build_tunings(&cfg, &set, &report));
+	assert_non_null(strstr(report.text, "t.conf:3: choose is 4"));
+}
+
+static void input_output_control_keys(void **state)
+{
+	(void)state;
+	assert_true(parse("[input]\nchannels = 1-3\nwheel_range = 150c\n"
+			  "[control]\nchannel = 16\nprogram_change = ignore\nroot_cc = 20\npreset_keys = 0\n"
+			  "[output fs]\nmethod = mts\nbend_factor = 127/128\ncents_offset = -3.05\n"
+			  "mts_program = 5\nmts_bank = 2\nmts_device = 16\nmts_bulk = yes\nmts_key = own\n"
+			  "polyphony = steal\nrunning_status = yes\n"
+			  "[output zone]\nmethod = mpe\nmpe_zone = upper\nmpe_members = 7\n"));
+	assert_int_equal(cfg.input.channels, 0x7);
+	assert_true(cfg.input.wheel_range_cents == 150.0);
+	assert_int_equal(cfg.control.channel, 15);
+	assert_false(cfg.control.program_selects_preset);
+	assert_int_equal(cfg.control.root_cc, 20);
+	assert_int_equal(cfg.control.preset_cc, -1);
+	assert_int_equal(cfg.control.preset_keys, 0);
+	const struct output_config *fs = &cfg.outputs[0], *zone = &cfg.outputs[1];
+	assert_int_equal(fs->method, RETUNE_MTS);
+	assert_true(fs->bend_factor == 127.0 / 128.0);
+	assert_true(fs->cents_offset == -3.05);
+	assert_int_equal(fs->mts_program, 5);
+	assert_int_equal(fs->mts_bank, 2);
+	assert_int_equal(fs->mts_device, 16);
+	assert_true(fs->mts_bulk);
+	assert_int_equal(fs->mts_key, MTS_KEY_OWN);
+	assert_int_equal(fs->polyphony, POLY_STEAL);
+	assert_true(fs->running_status);
+	assert_int_equal(output_bend_range(fs), 2);
+	/* the MPE member range defaults to 48 semitones (MPE 1.0 section 2.4) */
+	assert_int_equal(zone->method, RETUNE_MPE);
+	assert_int_equal(output_bend_range(zone), 48);
+	assert_int_equal(zone->mpe_zone, MPE_ZONE_UPPER);
+	assert_int_equal(zone->mpe_members, 7);
+	struct engine_spec spec;
+	config_engine_spec(&cfg, 0, &spec);
+	assert_int_equal(spec.output.method, RETUNE_MTS);
+	assert_true(spec.output.bend_played == 127.0 / 128.0);
+	assert_int_equal(spec.control.channel, 15);
+	assert_int_equal(spec.input.channels, 0x7);
+
+	/* an MPE controller plays on its whole zone unless told otherwise */
+	assert_true(parse("[input]\nmpe = lower\n"));
+	assert_int_equal(cfg.input.channels, 0xFFFF);
+	assert_true(cfg.input.mpe);
+	assert_int_equal(cfg.input.mpe_bend_range, 48);
+
+	expect_error("[input]\nwheel_range = 97\n", "t.conf:2: wheel_range is '97', expected semitones from 0 to 96");
+	expect_error("[input]\nwheel_range = 12x\n", "t.conf:2: wheel_range is '12x'");
+	expect_error("[input]\nmpe = yes\n", "t.conf:2: mpe is 'yes', expected no, lower");
+	expect_error("[output s]\nbend_factor = 3\n", "t.conf:2: bend_factor is '3', expected the fraction");
+	expect_error("[output s]\npolyphony = all\n", "t.conf:2: polyphony is 'all', expected share-then-steal, share or steal");
+	expect_error("[output s]\nmts_bulk = maybe\n", "t.conf:2: mts_bulk is 'maybe', expected yes or no");
+	expect_error("[output s]\nmts_device = 127\n", "t.conf:2: mts_device is '127', expected all, or a device ID");
+	expect_error("[output s]\nmpe_members = 16\n", "t.conf:2: mpe_members is '16', expected member channels from 1 to 15");
+	expect_error("[control]\nroot_cc = 120\n", "t.conf:2: root_cc is '120', expected none, or a controller number from 0 to 119");
+	expect_error("[input]\nchannels = 1-2\n[control]\nchannel = 2\n",
+		     "t.conf:4: the control channel 2 is also retuned in [input] channels");
 }
 
 static void unreadable_file(void **state)
@@ -289,6 +382,8 @@ int main(void)
 		cmocka_unit_test(build_errors_name_the_line),
 		cmocka_unit_test(map_slots_by_label),
 		cmocka_unit_test(merge_warning),
+		cmocka_unit_test(presets_inherit_the_main_tuning),
+		cmocka_unit_test(input_output_control_keys),
 		cmocka_unit_test(unreadable_file),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);

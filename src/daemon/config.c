@@ -12,7 +12,8 @@
  *
  * Defaults are written as text in the key table and parsed by the same
  * code as the file, so the documented default and the applied default
- * cannot drift apart.
+ * cannot drift apart.  [preset NAME] entries are applied last, on a copy
+ * of the main tuning, so a preset may come before the keys it inherits.
  */
 #include "config.h"
 
@@ -28,13 +29,18 @@
 
 #define CONFIG_FILE_MAX (1 << 20)
 #define ENTRY_VALUE_MAX 4096
-#define ENTRY_MAX 512
+#define ENTRY_MAX 1024
 
 enum key_kind {
 	K_SEEDS, K_CHOOSE, K_PERIOD, K_UNISON,
 	K_ROOT_KEY, K_ROOT_HZ,
 	K_LAYOUT, K_MAP, K_TRANSPOSE,
-	K_METHOD, K_CHANNELS, K_BEND_RANGE,
+	K_IN_CHANNELS, K_WHEEL_RANGE, K_IN_MPE, K_IN_MPE_BEND_RANGE,
+	K_METHOD, K_CHANNELS, K_BEND_RANGE, K_BEND_FACTOR, K_CENTS_OFFSET,
+	K_POLYPHONY, K_MTS_PROGRAM, K_MTS_BANK, K_MTS_DEVICE, K_MTS_BULK,
+	K_MTS_KEY, K_MPE_ZONE, K_MPE_MEMBERS, K_RUNNING_STATUS,
+	K_CTL_CHANNEL, K_CTL_PROGRAM, K_CTL_PRESET_CC, K_CTL_ROOT_CC,
+	K_CTL_PRESET_KEYS, K_CTL_ROOT_KEYS,
 };
 
 struct key_def {
@@ -42,6 +48,8 @@ struct key_def {
 	enum key_kind kind;
 };
 
+/* Key names are unique within a section family; [preset NAME] takes the
+ * keys of lattice, pitch and keys. */
 static const struct key_def key_table[] = {
 	{{"lattice", "seeds", "1 3 5 7",
 	  "2 to 12 positive whole numbers or ratios separated by spaces, e.g. 1 3 5 7 or 1 9/8 5"}, K_SEEDS},
@@ -61,12 +69,54 @@ static const struct key_def key_table[] = {
 	  "slots separated by spaces: a tone index or label, optionally followed by +N or -N periods, or . for a silent key"}, K_MAP},
 	{{"keys", "transpose", "0",
 	  "whole keys from -127 to 127"}, K_TRANSPOSE},
+	{{"input", "channels", "1",
+	  "MIDI channels 1 to 16 as numbers and ranges, e.g. 1 or 1-16"}, K_IN_CHANNELS},
+	{{"input", "wheel_range", "2",
+	  "semitones from 0 to 96 (e.g. 2), or cents with a c (e.g. 150c)"}, K_WHEEL_RANGE},
+	{{"input", "mpe", "no",
+	  "no, lower (master channel 1) or upper (master channel 16)"}, K_IN_MPE},
+	{{"input", "mpe_bend_range", "48",
+	  "whole semitones from 1 to 96"}, K_IN_MPE_BEND_RANGE},
 	{{"output", "method", "bend",
 	  "bend, mts or mpe"}, K_METHOD},
 	{{"output", "channels", "2-16",
 	  "MIDI channels 1 to 16 as numbers and ranges, e.g. 2-16 or 1,3,5-8 (a range skips channel 10)"}, K_CHANNELS},
 	{{"output", "bend_range", "2",
-	  "whole semitones from 1 to 96"}, K_BEND_RANGE},
+	  "whole semitones from 1 to 96 (default 2, or 48 for method = mpe)"}, K_BEND_RANGE},
+	{{"output", "bend_factor", "1",
+	  "the fraction of a bend the synth really plays, a ratio or decimal from 0.5 to 2, e.g. 127/128"}, K_BEND_FACTOR},
+	{{"output", "cents_offset", "0",
+	  "cents from -100 to 100 added to every pitch"}, K_CENTS_OFFSET},
+	{{"output", "polyphony", "share-then-steal",
+	  "share-then-steal, share or steal"}, K_POLYPHONY},
+	{{"output", "mts_program", "0",
+	  "a tuning program from 0 to 127"}, K_MTS_PROGRAM},
+	{{"output", "mts_bank", "none",
+	  "none, or a tuning bank from 0 to 127"}, K_MTS_BANK},
+	{{"output", "mts_device", "all",
+	  "all, or a device ID from 0 to 126"}, K_MTS_DEVICE},
+	{{"output", "mts_bulk", "no",
+	  "yes or no"}, K_MTS_BULK},
+	{{"output", "mts_key", "nearest",
+	  "nearest or own"}, K_MTS_KEY},
+	{{"output", "mpe_zone", "lower",
+	  "lower (master channel 1) or upper (master channel 16)"}, K_MPE_ZONE},
+	{{"output", "mpe_members", "15",
+	  "member channels from 1 to 15"}, K_MPE_MEMBERS},
+	{{"output", "running_status", "no",
+	  "yes or no"}, K_RUNNING_STATUS},
+	{{"control", "channel", "none",
+	  "none, or a MIDI channel from 1 to 16 that is not retuned"}, K_CTL_CHANNEL},
+	{{"control", "program_change", "preset",
+	  "preset (a program change on the control channel picks preset N) or ignore"}, K_CTL_PROGRAM},
+	{{"control", "preset_cc", "none",
+	  "none, or a controller number from 0 to 119"}, K_CTL_PRESET_CC},
+	{{"control", "root_cc", "none",
+	  "none, or a controller number from 0 to 119"}, K_CTL_ROOT_CC},
+	{{"control", "preset_keys", "none",
+	  "none, or the first of the keys that pick presets, 0 to 127"}, K_CTL_PRESET_KEYS},
+	{{"control", "root_keys", "none",
+	  "none, or the first of the keys that move the 1/1, 0 to 127"}, K_CTL_ROOT_KEYS},
 };
 #define KEY_COUNT ((int)(sizeof key_table / sizeof key_table[0]))
 
@@ -78,19 +128,6 @@ int config_key_count(void)
 const struct config_key_info *config_key_at(int index)
 {
 	return index >= 0 && index < KEY_COUNT ? &key_table[index].info : NULL;
-}
-
-const char *output_method_name(enum output_method method)
-{
-	switch (method) {
-	case OUTPUT_BEND:
-		return "bend";
-	case OUTPUT_MTS:
-		return "mts";
-	case OUTPUT_MPE:
-		return "mpe";
-	}
-	return "?";
 }
 
 /* Copies src into dst (size bytes), cutting it short if it does not fit. */
@@ -159,13 +196,21 @@ struct collector {
 	int errors;
 };
 
+/* "output synth" -> true for prefix "output" */
+static bool section_has_prefix(const char *name, const char *prefix)
+{
+	size_t n = strlen(prefix);
+	return strncmp(name, prefix, n) == 0 &&
+	       (name[n] == '\0' || name[n] == ' ' || name[n] == '\t');
+}
+
 static bool section_is_known(const char *name)
 {
-	if (strcmp(name, "lattice") == 0 || strcmp(name, "pitch") == 0 ||
-	    strcmp(name, "keys") == 0)
-		return true;
-	return strncmp(name, "output", 6) == 0 &&
-	       (name[6] == '\0' || name[6] == ' ' || name[6] == '\t');
+	static const char *const plain[] = {"lattice", "pitch", "keys", "input", "control"};
+	for (size_t i = 0; i < sizeof plain / sizeof plain[0]; i++)
+		if (strcmp(name, plain[i]) == 0)
+			return true;
+	return section_has_prefix(name, "output") || section_has_prefix(name, "preset");
 }
 
 static void trim(char *s)
@@ -220,7 +265,7 @@ static void inspect_section_line(struct collector *c, const char *line)
 	c->section_known = section_is_known(name);
 	if (!c->section_known) {
 		report_add(c->report, true, c->path, c->line,
-			   "unknown section [%s], expected [lattice], [pitch], [keys] or [output NAME]",
+			   "unknown section [%s], expected [lattice], [pitch], [keys], [input], [control], [output NAME] or [preset NAME]",
 			   name);
 		c->errors++;
 		return;
@@ -303,6 +348,13 @@ struct interp {
 	struct config *cfg;
 	struct config_report *report;
 	int errors;
+	int input_channels_line, control_channel_line;
+};
+
+/* What an entry writes into: the tuning of its section, or its output. */
+struct target {
+	struct tuning_config *tuning;
+	struct output_config *output;
 };
 
 static void fail(struct interp *in, int line, const char *fmt, ...)
@@ -386,7 +438,8 @@ static bool parse_seeds(struct interp *in, const struct entry *e,
 	return true;
 }
 
-static bool parse_channels(const char *text, uint16_t *out)
+/* skip_ten: a range leaves out channel 10 (GM drums) unless named alone */
+static bool parse_channels(const char *text, bool skip_ten, uint16_t *out)
 {
 	char buf[ENTRY_VALUE_MAX];
 	char *words[64];
@@ -404,7 +457,7 @@ static bool parse_channels(const char *text, uint16_t *out)
 			    !parse_int(dash + 1, 1, 16, &hi) || hi < lo)
 				return false;
 			for (long ch = lo; ch <= hi; ch++)
-				if (ch != 10) /* GM drums: only when named on its own */
+				if (!skip_ten || ch != 10)
 					mask |= (uint16_t)(1u << (ch - 1));
 		} else {
 			if (!parse_int(words[i], 1, 16, &lo))
@@ -440,6 +493,299 @@ char *config_format_channels(uint16_t channels, char *buf, size_t size)
 	return buf;
 }
 
+static bool parse_bool(const char *v, bool *out)
+{
+	if (!strcmp(v, "yes") || !strcmp(v, "true") || !strcmp(v, "on") || !strcmp(v, "1"))
+		*out = true;
+	else if (!strcmp(v, "no") || !strcmp(v, "false") || !strcmp(v, "off") || !strcmp(v, "0"))
+		*out = false;
+	else
+		return false;
+	return true;
+}
+
+/* "none" -> -1, else a whole number in [lo, hi]. */
+static bool parse_optional_int(const char *v, long lo, long hi, int *out)
+{
+	long n;
+	if (!strcmp(v, "none")) {
+		*out = -1;
+		return true;
+	}
+	if (!parse_int(v, lo, hi, &n))
+		return false;
+	*out = (int)n;
+	return true;
+}
+
+/* A ratio such as 127/128 or a decimal such as 0.9921875. */
+static bool parse_factor(const char *v, double lo, double hi, double *out)
+{
+	struct ratio r;
+	if (ratio_parse(v, &r)) {
+		*out = ratio_to_double(r);
+		return *out >= lo && *out <= hi;
+	}
+	return parse_real(v, lo, hi, out);
+}
+
+static bool parse_zone(const char *v, enum mpe_zone *out)
+{
+	if (!strcmp(v, "lower"))
+		*out = MPE_ZONE_LOWER;
+	else if (!strcmp(v, "upper"))
+		*out = MPE_ZONE_UPPER;
+	else
+		return false;
+	return true;
+}
+
+/* Stores one value; line 0 means a default being applied. */
+static void apply(struct interp *in, const struct key_def *def,
+		  const struct entry *e, struct target to)
+{
+	struct tuning_config *t = to.tuning;
+	struct output_config *out = to.output;
+	struct input_config *input = &in->cfg->input;
+	struct control_config *control = &in->cfg->control;
+	const char *v = e->value;
+	const char *key = def->info.key;
+	long n;
+	double x;
+	struct ratio r;
+	bool ok = true;
+	switch (def->kind) {
+	case K_SEEDS:
+		if (parse_seeds(in, e, &t->lattice))
+			t->lines.seeds = e->line;
+		return;
+	case K_CHOOSE:
+		if ((ok = parse_int(v, 1, LATTICE_MAX_SEEDS - 1, &n))) {
+			t->lattice.choose = (int)n;
+			t->lines.choose = e->line;
+		}
+		break;
+	case K_PERIOD:
+		if ((ok = ratio_parse(v, &r) && r.num > r.den)) {
+			t->lattice.period = r;
+			t->lines.period = e->line;
+		}
+		break;
+	case K_UNISON:
+		if ((ok = strlen(v) < sizeof t->unison_text)) {
+			copy_text(t->unison_text, sizeof t->unison_text,
+				  strcmp(v, "none") == 0 ? "" : v);
+			t->lines.unison = e->line;
+		}
+		break;
+	case K_ROOT_KEY:
+		if ((ok = parse_int(v, 0, 127, &n))) {
+			t->keys.root_key = (int)n;
+			t->lines.root_key = e->line;
+		}
+		break;
+	case K_ROOT_HZ:
+		if ((ok = parse_real(v, 1.0, 20000.0, &x))) {
+			t->keys.root_hz = x;
+			t->lines.root_hz = e->line;
+		}
+		break;
+	case K_LAYOUT:
+		if (!strcmp(v, "sequential"))
+			t->keys.layout = KEY_LAYOUT_SEQUENTIAL;
+		else if (!strcmp(v, "nearest"))
+			t->keys.layout = KEY_LAYOUT_NEAREST;
+		else if (!strcmp(v, "table"))
+			t->keys.layout = KEY_LAYOUT_TABLE;
+		else
+			ok = false;
+		if (ok)
+			t->lines.layout = e->line;
+		break;
+	case K_MAP:
+		if (strlen(v) >= sizeof t->map_text) {
+			fail(in, e->line, "map is longer than %d characters, expected at most %d slots",
+			     CONFIG_MAP_TEXT_MAX - 1, KEYMAP_TABLE_MAX);
+			return;
+		}
+		copy_text(t->map_text, sizeof t->map_text, v);
+		t->lines.map = e->line;
+		return;
+	case K_TRANSPOSE:
+		if ((ok = parse_int(v, -127, 127, &n))) {
+			t->keys.transpose = (int)n;
+			t->lines.transpose = e->line;
+		}
+		break;
+	case K_IN_CHANNELS:
+		if ((ok = parse_channels(v, false, &input->channels)))
+			in->input_channels_line = e->line;
+		break;
+	case K_WHEEL_RANGE: {
+		size_t len = strlen(v);
+		char number[64];
+		bool cents = len > 1 && len < sizeof number && v[len - 1] == 'c';
+		copy_text(number, sizeof number, v);
+		if (cents)
+			number[len - 1] = '\0';
+		if ((ok = parse_real(number, 0.0, cents ? 9600.0 : 96.0, &x)))
+			input->wheel_range_cents = cents ? x : x * 100.0;
+		break;
+	}
+	case K_IN_MPE:
+		if (!strcmp(v, "no"))
+			input->mpe = false;
+		else if ((ok = parse_zone(v, &input->mpe_zone)))
+			input->mpe = true;
+		break;
+	case K_IN_MPE_BEND_RANGE:
+		if ((ok = parse_int(v, 1, 96, &n)))
+			input->mpe_bend_range = (int)n;
+		break;
+	case K_METHOD:
+		if (!strcmp(v, "bend"))
+			out->method = RETUNE_BEND;
+		else if (!strcmp(v, "mts"))
+			out->method = RETUNE_MTS;
+		else if (!strcmp(v, "mpe"))
+			out->method = RETUNE_MPE;
+		else
+			ok = false;
+		break;
+	case K_CHANNELS:
+		ok = parse_channels(v, true, &out->channels);
+		break;
+	case K_BEND_RANGE:
+		if ((ok = parse_int(v, 1, 96, &n))) {
+			out->bend_range = (int)n;
+			out->bend_range_set = e->line > 0;
+		}
+		break;
+	case K_BEND_FACTOR:
+		ok = parse_factor(v, 0.5, 2.0, &out->bend_factor);
+		break;
+	case K_CENTS_OFFSET:
+		ok = parse_real(v, -100.0, 100.0, &out->cents_offset);
+		break;
+	case K_POLYPHONY:
+		if (!strcmp(v, "share-then-steal"))
+			out->polyphony = POLY_SHARE_THEN_STEAL;
+		else if (!strcmp(v, "share"))
+			out->polyphony = POLY_SHARE;
+		else if (!strcmp(v, "steal"))
+			out->polyphony = POLY_STEAL;
+		else
+			ok = false;
+		break;
+	case K_MTS_PROGRAM:
+		if ((ok = parse_int(v, 0, 127, &n)))
+			out->mts_program = (int)n;
+		break;
+	case K_MTS_BANK:
+		ok = parse_optional_int(v, 0, 127, &out->mts_bank);
+		break;
+	case K_MTS_DEVICE:
+		if (!strcmp(v, "all"))
+			out->mts_device = 0x7F;
+		else if ((ok = parse_int(v, 0, 126, &n)))
+			out->mts_device = (int)n;
+		break;
+	case K_MTS_BULK:
+		ok = parse_bool(v, &out->mts_bulk);
+		break;
+	case K_MTS_KEY:
+		if (!strcmp(v, "nearest"))
+			out->mts_key = MTS_KEY_NEAREST;
+		else if (!strcmp(v, "own"))
+			out->mts_key = MTS_KEY_OWN;
+		else
+			ok = false;
+		break;
+	case K_MPE_ZONE:
+		ok = parse_zone(v, &out->mpe_zone);
+		break;
+	case K_MPE_MEMBERS:
+		if ((ok = parse_int(v, 1, 15, &n)))
+			out->mpe_members = (int)n;
+		break;
+	case K_RUNNING_STATUS:
+		ok = parse_bool(v, &out->running_status);
+		break;
+	case K_CTL_CHANNEL:
+		if ((ok = parse_optional_int(v, 1, 16, &control->channel))) {
+			if (control->channel > 0)
+				control->channel--;
+			in->control_channel_line = e->line;
+		}
+		break;
+	case K_CTL_PROGRAM:
+		if (!strcmp(v, "preset"))
+			control->program_selects_preset = true;
+		else if (!strcmp(v, "ignore"))
+			control->program_selects_preset = false;
+		else
+			ok = false;
+		break;
+	case K_CTL_PRESET_CC:
+		ok = parse_optional_int(v, 0, 119, &control->preset_cc);
+		break;
+	case K_CTL_ROOT_CC:
+		ok = parse_optional_int(v, 0, 119, &control->root_cc);
+		break;
+	case K_CTL_PRESET_KEYS:
+		ok = parse_optional_int(v, 0, 127, &control->preset_keys);
+		break;
+	case K_CTL_ROOT_KEYS:
+		ok = parse_optional_int(v, 0, 127, &control->root_keys);
+		break;
+	}
+	if (!ok)
+		fail(in, e->line, "%s is '%s', expected %s", key, v, def->info.expected);
+}
+
+static bool in_family(const struct key_def *def, const char *family)
+{
+	if (strcmp(family, "preset") == 0)
+		return !strcmp(def->info.section, "lattice") ||
+		       !strcmp(def->info.section, "pitch") ||
+		       !strcmp(def->info.section, "keys");
+	return strcmp(def->info.section, family) == 0;
+}
+
+static void apply_default(struct interp *in, const char *family, struct target to)
+{
+	for (int i = 0; i < KEY_COUNT; i++) {
+		const struct key_def *def = &key_table[i];
+		if (!in_family(def, family) || def->kind == K_MAP)
+			continue;
+		struct entry e;
+		memset(&e, 0, sizeof e);
+		copy_text(e.value, sizeof e.value, def->info.default_text);
+		apply(in, def, &e, to);
+	}
+}
+
+static void output_defaults(struct interp *in, struct output_config *out)
+{
+	memset(out, 0, sizeof *out);
+	apply_default(in, "output", (struct target){.output = out});
+}
+
+void config_defaults(struct config *out)
+{
+	struct interp in = {.path = "(defaults)", .cfg = out};
+	memset(out, 0, sizeof *out);
+	copy_text(out->path, sizeof out->path, "(built-in defaults)");
+	out->preset_count = 1;
+	copy_text(out->presets[0].name, sizeof out->presets[0].name, "main");
+	apply_default(&in, "preset", (struct target){.tuning = &out->presets[0]});
+	apply_default(&in, "input", (struct target){0});
+	apply_default(&in, "control", (struct target){0});
+	out->output_count = 1;
+	output_defaults(&in, &out->outputs[0]);
+	copy_text(out->outputs[0].name, sizeof out->outputs[0].name, "synth");
+}
+
 static struct output_config *output_named(struct config *cfg, const char *name)
 {
 	for (int i = 0; i < cfg->output_count; i++)
@@ -448,9 +794,7 @@ static struct output_config *output_named(struct config *cfg, const char *name)
 	return NULL;
 }
 
-static void output_defaults(struct output_config *out);
-
-static bool valid_port_name(const char *name)
+static bool valid_name(const char *name)
 {
 	if (name[0] == '\0' || strlen(name) >= CONFIG_NAME_MAX)
 		return false;
@@ -463,47 +807,88 @@ static bool valid_port_name(const char *name)
 	return true;
 }
 
+/* The NAME of "[output NAME]" / "[preset NAME]", checked; reported once, at
+ * the header (a key of a bad section returns false silently). */
+static bool section_name(struct interp *in, const struct entry *e, const char *kind,
+			 char *name, size_t size)
+{
+	copy_text(name, size, e->section + strlen(kind));
+	trim(name);
+	bool at_header = e->key[0] == '\0';
+	if (name[0] == '\0') {
+		if (at_header)
+			fail(in, e->line, "[%s] has no name, expected [%s NAME], e.g. [%s %s]",
+			     kind, kind, kind, strcmp(kind, "output") ? "bright" : "synth");
+		return false;
+	}
+	if (!valid_name(name)) {
+		if (at_header)
+			fail(in, e->line, "%s name '%s' is not usable%s, expected 1 to %d letters, digits, '-' or '_'",
+			     kind, name, strcmp(kind, "output") ? "" : " as a port name",
+			     CONFIG_NAME_MAX - 1);
+		return false;
+	}
+	return true;
+}
+
 /* The output an [output NAME] entry belongs to, created on first use. */
 static struct output_config *output_for(struct interp *in, const struct entry *e)
 {
 	char name[64];
-	copy_text(name, sizeof name, e->section + 6);
-	trim(name);
+	if (!section_name(in, e, "output", name, sizeof name))
+		return NULL;
 	struct output_config *o = output_named(in->cfg, name);
 	if (o)
 		return o;
-	/* report a bad section once, at its header, not at each of its keys */
-	bool at_header = e->key[0] == '\0';
-	if (name[0] == '\0') {
-		if (at_header)
-			fail(in, e->line, "[output] has no name, expected [output NAME], e.g. [output synth]");
-		return NULL;
-	}
-	if (!valid_port_name(name)) {
-		if (at_header)
-			fail(in, e->line, "output name '%s' is not usable as a port name, expected 1 to %d letters, digits, '-' or '_'",
-			     name, CONFIG_NAME_MAX - 1);
-		return NULL;
-	}
 	if (in->cfg->output_count >= CONFIG_MAX_OUTPUTS) {
-		if (at_header)
+		if (e->key[0] == '\0')
 			fail(in, e->line, "more than %d outputs, expected at most %d [output NAME] sections",
 			     CONFIG_MAX_OUTPUTS, CONFIG_MAX_OUTPUTS);
 		return NULL;
 	}
 	o = &in->cfg->outputs[in->cfg->output_count++];
-	output_defaults(o);
+	output_defaults(in, o);
 	copy_text(o->name, sizeof o->name, name);
 	o->line = e->line;
 	return o;
 }
 
-static const struct key_def *find_key(const char *section, const char *key)
+/* The preset a [preset NAME] entry belongs to, created as a copy of main. */
+static struct tuning_config *preset_for(struct interp *in, const struct entry *e)
 {
-	const char *family = strncmp(section, "output", 6) == 0 ? "output" : section;
+	char name[64];
+	if (!section_name(in, e, "preset", name, sizeof name))
+		return NULL;
+	struct config *cfg = in->cfg;
+	for (int i = 0; i < cfg->preset_count; i++)
+		if (strcmp(cfg->presets[i].name, name) == 0)
+			return &cfg->presets[i];
+	if (cfg->preset_count >= CONFIG_MAX_PRESETS) {
+		if (e->key[0] == '\0')
+			fail(in, e->line, "more than %d presets, expected at most %d [preset NAME] sections",
+			     CONFIG_MAX_PRESETS - 1, CONFIG_MAX_PRESETS - 1);
+		return NULL;
+	}
+	struct tuning_config *t = &cfg->presets[cfg->preset_count++];
+	*t = cfg->presets[0];
+	copy_text(t->name, sizeof t->name, name);
+	t->lines.section = e->line;
+	return t;
+}
+
+static const char *family_of(const char *section)
+{
+	if (section_has_prefix(section, "output"))
+		return "output";
+	if (section_has_prefix(section, "preset"))
+		return "preset";
+	return section;
+}
+
+static const struct key_def *find_key(const char *family, const char *key)
+{
 	for (int i = 0; i < KEY_COUNT; i++)
-		if (strcmp(key_table[i].info.section, family) == 0 &&
-		    strcmp(key_table[i].info.key, key) == 0)
+		if (in_family(&key_table[i], family) && strcmp(key_table[i].info.key, key) == 0)
 			return &key_table[i];
 	return NULL;
 }
@@ -513,7 +898,7 @@ static void list_keys_of(const char *family, char *buf, size_t size)
 	size_t used = 0;
 	buf[0] = '\0';
 	for (int i = 0; i < KEY_COUNT; i++) {
-		if (strcmp(key_table[i].info.section, family) != 0)
+		if (!in_family(&key_table[i], family))
 			continue;
 		int n = snprintf(buf + used, size - used, "%s%s", used ? ", " : "",
 				 key_table[i].info.key);
@@ -523,165 +908,27 @@ static void list_keys_of(const char *family, char *buf, size_t size)
 	}
 }
 
-/* Stores one value; line 0 means a default being applied. */
-static void apply(struct interp *in, const struct key_def *def,
-		  const struct entry *e, struct output_config *out)
-{
-	struct tuning_config *t = &in->cfg->tuning;
-	const char *v = e->value;
-	long n;
-	double x;
-	struct ratio r;
-	switch (def->kind) {
-	case K_SEEDS:
-		if (parse_seeds(in, e, &t->lattice))
-			t->lines.seeds = e->line;
-		return;
-	case K_CHOOSE:
-		if (!parse_int(v, 1, LATTICE_MAX_SEEDS - 1, &n)) {
-			fail(in, e->line, "choose is '%s', expected %s", v, def->info.expected);
-			return;
-		}
-		t->lattice.choose = (int)n;
-		t->lines.choose = e->line;
-		return;
-	case K_PERIOD:
-		if (!ratio_parse(v, &r) || r.num <= r.den) {
-			fail(in, e->line, "period is '%s', expected %s", v, def->info.expected);
-			return;
-		}
-		t->lattice.period = r;
-		t->lines.period = e->line;
-		return;
-	case K_UNISON:
-		if (strlen(v) >= sizeof t->unison_text) {
-			fail(in, e->line, "unison is too long, expected %s", def->info.expected);
-			return;
-		}
-		copy_text(t->unison_text, sizeof t->unison_text,
-			  strcmp(v, "none") == 0 ? "" : v);
-		t->lines.unison = e->line;
-		return;
-	case K_ROOT_KEY:
-		if (!parse_int(v, 0, 127, &n)) {
-			fail(in, e->line, "root_key is '%s', expected %s", v, def->info.expected);
-			return;
-		}
-		t->keys.root_key = (int)n;
-		t->lines.root_key = e->line;
-		return;
-	case K_ROOT_HZ:
-		if (!parse_real(v, 1.0, 20000.0, &x)) {
-			fail(in, e->line, "root_hz is '%s', expected %s", v, def->info.expected);
-			return;
-		}
-		t->keys.root_hz = x;
-		t->lines.root_hz = e->line;
-		return;
-	case K_LAYOUT:
-		if (strcmp(v, "sequential") == 0)
-			t->keys.layout = KEY_LAYOUT_SEQUENTIAL;
-		else if (strcmp(v, "nearest") == 0)
-			t->keys.layout = KEY_LAYOUT_NEAREST;
-		else if (strcmp(v, "table") == 0)
-			t->keys.layout = KEY_LAYOUT_TABLE;
-		else {
-			fail(in, e->line, "layout is '%s', expected %s", v, def->info.expected);
-			return;
-		}
-		t->lines.layout = e->line;
-		return;
-	case K_MAP:
-		if (strlen(v) >= sizeof t->map_text) {
-			fail(in, e->line, "map is longer than %d characters, expected at most %d slots",
-			     CONFIG_MAP_TEXT_MAX - 1, KEYMAP_TABLE_MAX);
-			return;
-		}
-		copy_text(t->map_text, sizeof t->map_text, v);
-		t->lines.map = e->line;
-		return;
-	case K_TRANSPOSE:
-		if (!parse_int(v, -127, 127, &n)) {
-			fail(in, e->line, "transpose is '%s', expected %s", v, def->info.expected);
-			return;
-		}
-		t->keys.transpose = (int)n;
-		t->lines.transpose = e->line;
-		return;
-	case K_METHOD:
-		if (strcmp(v, "bend") == 0)
-			out->method = OUTPUT_BEND;
-		else if (strcmp(v, "mts") == 0)
-			out->method = OUTPUT_MTS;
-		else if (strcmp(v, "mpe") == 0)
-			out->method = OUTPUT_MPE;
-		else
-			fail(in, e->line, "method is '%s', expected %s", v, def->info.expected);
-		return;
-	case K_CHANNELS:
-		if (!parse_channels(v, &out->channels))
-			fail(in, e->line, "channels is '%s', expected %s", v, def->info.expected);
-		return;
-	case K_BEND_RANGE:
-		if (!parse_int(v, 1, 96, &n)) {
-			fail(in, e->line, "bend_range is '%s', expected %s", v, def->info.expected);
-			return;
-		}
-		out->bend_range = (int)n;
-		return;
-	}
-}
-
-static void apply_default(struct interp *in, const char *family,
-			  struct output_config *out)
-{
-	for (int i = 0; i < KEY_COUNT; i++) {
-		const struct key_def *def = &key_table[i];
-		if (strcmp(def->info.section, family) != 0 || def->kind == K_MAP)
-			continue;
-		struct entry e;
-		memset(&e, 0, sizeof e);
-		copy_text(e.value, sizeof e.value, def->info.default_text);
-		apply(in, def, &e, out);
-	}
-}
-
-static void output_defaults(struct output_config *out)
-{
-	struct config scratch;
-	struct interp in = {.path = "(defaults)", .cfg = &scratch};
-	memset(out, 0, sizeof *out);
-	apply_default(&in, "output", out);
-}
-
-void config_defaults(struct config *out)
-{
-	struct interp in = {.path = "(defaults)", .cfg = out};
-	memset(out, 0, sizeof *out);
-	snprintf(out->path, sizeof out->path, "(built-in defaults)");
-	apply_default(&in, "lattice", NULL);
-	apply_default(&in, "pitch", NULL);
-	apply_default(&in, "keys", NULL);
-	out->output_count = 1;
-	output_defaults(&out->outputs[0]);
-	snprintf(out->outputs[0].name, sizeof out->outputs[0].name, "synth");
-}
-
-static void interpret(struct interp *in, const struct entry *entries, int index)
+/* Interprets entry `index`; presets are done in a later pass (want_presets). */
+static void interpret(struct interp *in, const struct entry *entries, int index,
+		      bool want_presets)
 {
 	const struct entry *e = &entries[index];
 	if (!e->in_known_section)
 		return; /* the section header was already reported */
-	bool is_output = strncmp(e->section, "output", 6) == 0;
+	const char *family = family_of(e->section);
+	bool is_preset = strcmp(family, "preset") == 0;
+	if (is_preset != want_presets)
+		return;
 	if (e->key[0] == '\0') {
-		if (is_output)
+		if (strcmp(family, "output") == 0)
 			(void)output_for(in, e);
+		else if (is_preset)
+			(void)preset_for(in, e);
 		return;
 	}
-	const struct key_def *def = find_key(e->section, e->key);
-	const char *family = is_output ? "output" : e->section;
+	const struct key_def *def = find_key(family, e->key);
 	if (!def) {
-		char known[256];
+		char known[768];
 		list_keys_of(family, known, sizeof known);
 		fail(in, e->line, "unknown key '%s' in [%s], expected one of: %s",
 		     e->key, e->section, known);
@@ -695,13 +942,36 @@ static void interpret(struct interp *in, const struct entry *entries, int index)
 			return;
 		}
 	}
-	struct output_config *out = NULL;
-	if (is_output) {
-		out = output_for(in, e);
-		if (!out)
+	struct target to = {0};
+	if (strcmp(family, "output") == 0) {
+		if (!(to.output = output_for(in, e)))
 			return;
+	} else if (is_preset) {
+		if (!(to.tuning = preset_for(in, e)))
+			return;
+	} else {
+		to.tuning = &in->cfg->presets[0];
 	}
-	apply(in, def, e, out);
+	apply(in, def, e, to);
+}
+
+/* Checks that need several keys at once. */
+static void cross_check(struct interp *in)
+{
+	struct config *cfg = in->cfg;
+	struct input_config *input = &cfg->input;
+	if (input->mpe && in->input_channels_line == 0)
+		input->channels = 0xFFFF; /* an MPE controller plays on its whole zone */
+	int ctl = cfg->control.channel;
+	if (ctl >= 0 && ((input->channels >> ctl) & 1))
+		fail(in, in->control_channel_line,
+		     "the control channel %d is also retuned in [input] channels, expected a channel the player does not play on",
+		     ctl + 1);
+	for (int i = 0; i < cfg->output_count; i++) {
+		struct output_config *o = &cfg->outputs[i];
+		if (!o->bend_range_set)
+			o->bend_range = o->method == RETUNE_MPE ? 48 : 2;
+	}
 }
 
 bool config_parse(const char *text, size_t length, const char *path,
@@ -740,19 +1010,25 @@ bool config_parse(const char *text, size_t length, const char *path,
 	cfg->output_count = 0;
 
 	struct interp in = {.path = path, .cfg = cfg, .report = report};
-	for (int i = 0; i < col.entry_count; i++)
-		interpret(&in, entries, i);
+	for (int pass = 0; pass < 2; pass++)
+		for (int i = 0; i < col.entry_count; i++)
+			interpret(&in, entries, i, pass == 1);
 
 	if (cfg->output_count == 0) {
 		/* no [output] section: one bend output named "synth" */
 		cfg->output_count = 1;
-		output_defaults(&cfg->outputs[0]);
-		snprintf(cfg->outputs[0].name, sizeof cfg->outputs[0].name, "synth");
+		output_defaults(&in, &cfg->outputs[0]);
+		copy_text(cfg->outputs[0].name, sizeof cfg->outputs[0].name, "synth");
 	}
-	if (cfg->tuning.lines.map && cfg->tuning.keys.layout != KEY_LAYOUT_TABLE)
-		report_add(report, false, path, cfg->tuning.lines.map,
-			   "map is set but layout is %s; the map is used only with layout = table",
-			   key_layout_name(cfg->tuning.keys.layout));
+	cross_check(&in);
+	for (int i = 0; i < cfg->preset_count; i++) {
+		const struct tuning_config *t = &cfg->presets[i];
+		if (t->lines.map && t->keys.layout != KEY_LAYOUT_TABLE &&
+		    (i == 0 || t->lines.map != cfg->presets[0].lines.map))
+			report_add(report, false, path, t->lines.map,
+				   "map is set but layout is %s; the map is used only with layout = table",
+				   key_layout_name(t->keys.layout));
+	}
 
 	bool ok = col.errors == 0 && in.errors == 0 && syntax_line == 0;
 	if (ok)
@@ -858,12 +1134,10 @@ static bool parse_slot(const struct lattice *lat, const char *word,
 	return true;
 }
 
-bool config_build_tuning(const struct config *cfg, struct tuning *out,
+bool config_build_tuning(const struct config *cfg, int preset, struct tuning *out,
 			 struct config_report *report)
 {
-	if (report)
-		memset(report, 0, sizeof *report);
-	const struct tuning_config *t = &cfg->tuning;
+	const struct tuning_config *t = &cfg->presets[preset];
 	struct lattice_spec spec = t->lattice;
 	struct core_error err;
 
@@ -924,4 +1198,90 @@ bool config_build_tuning(const struct config *cfg, struct tuning *out,
 		return false;
 	}
 	return true;
+}
+
+bool config_build_tunings(const struct config *cfg, struct tuning_set *out,
+			  struct config_report *report)
+{
+	if (report)
+		memset(report, 0, sizeof *report);
+	memset(out, 0, sizeof *out);
+	out->tunings = calloc((size_t)cfg->preset_count, sizeof *out->tunings);
+	if (!out->tunings) {
+		report_add(report, true, cfg->path, 0, "out of memory building the tunings");
+		return false;
+	}
+	bool ok = true;
+	for (int i = 0; i < cfg->preset_count; i++) {
+		struct tuning *t = &out->tunings[i];
+		if (!config_build_tuning(cfg, i, t, report)) {
+			ok = false;
+			continue;
+		}
+		struct engine_preset *p = &out->engine.presets[i];
+		copy_text(p->name, sizeof p->name, cfg->presets[i].name);
+		p->lattice = &t->lattice;
+		p->keymap = &t->keymap;
+	}
+	out->count = out->engine.count = cfg->preset_count;
+	if (!ok)
+		tuning_set_free(out);
+	return ok;
+}
+
+void tuning_set_free(struct tuning_set *set)
+{
+	free(set->tunings);
+	memset(set, 0, sizeof *set);
+}
+
+void config_engine_spec(const struct config *cfg, int output, struct engine_spec *out)
+{
+	const struct output_config *o = &cfg->outputs[output];
+	memset(out, 0, sizeof *out);
+	out->output.method = o->method;
+	out->output.channels = o->channels;
+	out->output.bend_range = output_bend_range(o);
+	out->output.bend_played = o->bend_factor;
+	out->output.cents_offset = o->cents_offset;
+	out->output.polyphony = o->polyphony;
+	out->output.mts_device = (uint8_t)o->mts_device;
+	out->output.mts_program = (uint8_t)o->mts_program;
+	out->output.mts_bank = o->mts_bank;
+	out->output.mts_bulk = o->mts_bulk;
+	out->output.mts_key = o->mts_key;
+	out->output.mpe_zone = o->mpe_zone;
+	out->output.mpe_members = o->mpe_members;
+	out->input.channels = cfg->input.channels;
+	out->input.wheel_range_cents = cfg->input.wheel_range_cents;
+	out->input.mpe = cfg->input.mpe;
+	out->input.mpe_zone = cfg->input.mpe_zone;
+	out->input.mpe_bend_range = cfg->input.mpe_bend_range;
+	out->control.channel = cfg->control.channel;
+	out->control.program_selects_preset = cfg->control.program_selects_preset;
+	out->control.preset_cc = cfg->control.preset_cc;
+	out->control.root_cc = cfg->control.root_cc;
+	out->control.preset_keys = cfg->control.preset_keys;
+	out->control.root_keys = cfg->control.root_keys;
+}
+
+int output_bend_range(const struct output_config *out)
+{
+	return out->bend_range;
+}
+
+int config_find_output(const struct config *cfg, const char *name)
+{
+	for (int i = 0; i < cfg->output_count; i++)
+		if (strcmp(cfg->outputs[i].name, name) == 0)
+			return i;
+	return -1;
+}
+
+int config_find_preset(const struct config *cfg, const char *name)
+{
+	for (int i = 0; i < cfg->preset_count; i++)
+		if (strcmp(cfg->presets[i].name, name) == 0)
+			return i;
+	return -1;
 }

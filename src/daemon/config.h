@@ -2,14 +2,16 @@
  * config: the latticed.conf reader.
  *
  * Model: an INI file (read by inih) whose every key is declared once in a
- * table in config.c: section, name, kind, bounds, default and a one-line
- * meaning.  Parsing is two passes over a memory buffer: inih collects
+ * table in config.c: section, name, kind, default and what a valid value
+ * looks like.  Parsing is two passes over a memory buffer: inih collects
  * (section, key, value, line) entries, joining indented continuation lines;
  * then each entry is checked against the table and stored.  Errors are
  * collected, one line each, as "FILE:LINE: what is wrong, what was
  * expected"; if there is any, the caller's config is left untouched.
  *
- * Building the tuning (lattice + key map) from a parsed config is a
+ * Tunings: [lattice], [pitch] and [keys] make the main preset; each
+ * [preset NAME] section starts as a copy of it and overrides any of
+ * those keys.  Building the tunings (lattice + key map per preset) is a
  * separate step because some checks need the built set (a key table may
  * name tones by label); its errors also point at the config line.
  */
@@ -20,23 +22,48 @@
 #include <stddef.h>
 #include <stdint.h>
 
+#include "latticed/engine.h"
 #include "latticed/keymap.h"
 #include "latticed/lattice.h"
 
 #define CONFIG_MAX_OUTPUTS 8
-#define CONFIG_NAME_MAX 32
+#define CONFIG_MAX_PRESETS ENGINE_MAX_PRESETS
+#define CONFIG_NAME_MAX ENGINE_NAME_MAX
 #define CONFIG_PATH_MAX 512
 #define CONFIG_MAP_TEXT_MAX 2048
 #define CONFIG_REPORT_MAX 8192
 
-enum output_method { OUTPUT_BEND, OUTPUT_MTS, OUTPUT_MPE };
-
 struct output_config {
 	char name[CONFIG_NAME_MAX];
 	int line;                  /* of the [output NAME] header */
-	enum output_method method;
-	uint16_t channels;         /* bit c = MIDI channel c+1 in the pool */
+	enum retune_method method;
+	uint16_t channels;         /* bit c = MIDI channel c+1 */
 	int bend_range;            /* semitones, sent with RPN 0 */
+	double bend_factor;        /* fraction of a bend the synth plays */
+	double cents_offset;
+	enum polyphony_policy polyphony;
+	int mts_program, mts_bank, mts_device; /* bank -1: none */
+	bool mts_bulk;
+	enum mts_key_choice mts_key;
+	enum mpe_zone mpe_zone;
+	int mpe_members;
+	bool running_status;       /* leave out repeated status bytes (DIN links) */
+	bool bend_range_set;       /* else the method's default: 2, or 48 for mpe */
+};
+
+struct input_config {
+	uint16_t channels;
+	double wheel_range_cents;
+	enum mpe_zone mpe_zone;
+	bool mpe;
+	int mpe_bend_range;
+};
+
+struct control_config {
+	int channel;               /* 0..15 or -1 */
+	bool program_selects_preset;
+	int preset_cc, root_cc;    /* -1 = none */
+	int preset_keys, root_keys;
 };
 
 /* Where each tuning key was set (0 = default), for error messages. */
@@ -48,6 +75,7 @@ struct tuning_lines {
 };
 
 struct tuning_config {
+	char name[CONFIG_NAME_MAX];
 	struct lattice_spec lattice;
 	struct keymap_spec keys;   /* table slots are resolved at build time */
 	char unison_text[LATTICE_LABEL_MAX];
@@ -57,7 +85,10 @@ struct tuning_config {
 
 struct config {
 	char path[CONFIG_PATH_MAX];    /* as named in messages */
-	struct tuning_config tuning;
+	int preset_count;              /* presets[0] is the main tuning */
+	struct tuning_config presets[CONFIG_MAX_PRESETS];
+	struct input_config input;
+	struct control_config control;
 	int output_count;
 	struct output_config outputs[CONFIG_MAX_OUTPUTS];
 };
@@ -76,6 +107,13 @@ struct tuning {
 	struct keymap keymap;
 };
 
+/* Every preset built, and the view of them an engine takes. */
+struct tuning_set {
+	int count;
+	struct tuning *tunings;        /* count of them */
+	struct engine_tunings engine;
+};
+
 /* The built-in defaults, identical to the shipped config/latticed.conf. */
 void config_defaults(struct config *out);
 
@@ -91,18 +129,31 @@ bool config_parse(const char *text, size_t length, const char *path,
 bool config_load(const char *path, struct config *out,
 		 struct config_report *report);
 
-/* Builds lattice and key map; false with errors in report. */
-bool config_build_tuning(const struct config *cfg, struct tuning *out,
+/* Builds one preset's lattice and key map; false with errors in report. */
+bool config_build_tuning(const struct config *cfg, int preset, struct tuning *out,
 			 struct config_report *report);
 
-const char *output_method_name(enum output_method method);
+/* Builds every preset (allocates); false with errors in report. */
+bool config_build_tunings(const struct config *cfg, struct tuning_set *out,
+			  struct config_report *report);
+void tuning_set_free(struct tuning_set *set);
+
+/* The engine's view of output number `output`. */
+void config_engine_spec(const struct config *cfg, int output, struct engine_spec *out);
+
+/* Index of the output or preset with this name, or -1. */
+int config_find_output(const struct config *cfg, const char *name);
+int config_find_preset(const struct config *cfg, const char *name);
+
+/* The bend range an output really uses (its own, or its method's default). */
+int output_bend_range(const struct output_config *out);
 
 /* Formats a channel mask as "2-9,11-16". */
 char *config_format_channels(uint16_t channels, char *buf, size_t size);
 
 /* One row per key of the table, for documentation and tests. */
 struct config_key_info {
-	const char *section;       /* "lattice", "pitch", "keys", "output" */
+	const char *section;       /* "lattice", "pitch", "keys", "input", "output", "control" */
 	const char *key;
 	const char *default_text;
 	const char *expected;      /* what a valid value looks like */

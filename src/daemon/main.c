@@ -44,15 +44,15 @@ static int load_config(const char *path, struct config *cfg)
 	return ok ? 0 : 1;
 }
 
-static int build_tuning(const struct config *cfg, struct tuning **out)
+static int build_tuning(const struct config *cfg, int preset, struct tuning **out)
 {
-	struct config_report report;
+	struct config_report report = {0};
 	struct tuning *t = malloc(sizeof *t);
 	if (!t) {
 		fprintf(stderr, "latticed: out of memory building the tuning\n");
 		return 1;
 	}
-	bool ok = config_build_tuning(cfg, t, &report);
+	bool ok = config_build_tuning(cfg, preset, t, &report);
 	print_report(&report);
 	if (!ok) {
 		free(t);
@@ -65,10 +65,11 @@ static int build_tuning(const struct config *cfg, struct tuning **out)
 static void table_usage(FILE *f)
 {
 	fprintf(f,
-		"Usage: latticed table [--config FILE] [--json]\n"
+		"Usage: latticed table [--config FILE] [--preset NAME] [--json]\n"
 		"Print the lattice (tones, chords) and what every key plays.\n"
 		"\n"
 		"  -c, --config FILE  read FILE instead of %s\n"
+		"  -p, --preset NAME  show preset NAME instead of the main tuning\n"
 		"  -j, --json         one JSON object instead of the text table\n"
 		"  -h, --help         show this help\n",
 		default_config_path);
@@ -79,16 +80,20 @@ static int command_table(int argc, char **argv)
 	static const struct option options[] = {
 		{"config", required_argument, NULL, 'c'},
 		{"json", no_argument, NULL, 'j'},
+		{"preset", required_argument, NULL, 'p'},
 		{"help", no_argument, NULL, 'h'},
 		{NULL, 0, NULL, 0},
 	};
-	const char *config_path = NULL;
+	const char *config_path = NULL, *preset_name = NULL;
 	bool json = false;
 	int opt;
-	while ((opt = getopt_long(argc, argv, "c:jh", options, NULL)) != -1) {
+	while ((opt = getopt_long(argc, argv, "c:jp:h", options, NULL)) != -1) {
 		switch (opt) {
 		case 'c':
 			config_path = optarg;
+			break;
+		case 'p':
+			preset_name = optarg;
 			break;
 		case 'j':
 			json = true;
@@ -110,13 +115,21 @@ static int command_table(int argc, char **argv)
 	struct config *cfg = malloc(sizeof *cfg);
 	struct tuning *t = NULL;
 	int rc = cfg ? load_config(config_path, cfg) : 1;
+	int preset = 0;
+	if (rc == 0 && preset_name) {
+		preset = config_find_preset(cfg, preset_name);
+		if (preset < 0) {
+			fprintf(stderr, "latticed table: %s has no preset '%s'\n", cfg->path, preset_name);
+			rc = 1;
+		}
+	}
 	if (rc == 0)
-		rc = build_tuning(cfg, &t);
+		rc = build_tuning(cfg, preset, &t);
 	if (rc == 0) {
 		if (json)
-			rc = table_print_json(stdout, cfg, t) == 0 ? 0 : 1;
+			rc = table_print_json(stdout, cfg, preset, t) == 0 ? 0 : 1;
 		else
-			table_print_text(stdout, cfg, t);
+			table_print_text(stdout, cfg, preset, t);
 		if (fflush(stdout) != 0) {
 			perror("latticed: writing the table");
 			rc = 1;

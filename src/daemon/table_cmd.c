@@ -14,6 +14,7 @@
 #include <string.h>
 
 #include "latticed/pitch.h"
+#include "latticed/retune_table.h"
 
 static const char *const note_names[12] = {
 	"C", "C#", "D", "D#", "E", "F", "F#", "G", "G#", "A", "A#", "B",
@@ -28,7 +29,16 @@ static char *key_name(int key, char *buf, size_t size)
 
 static bool output_uses_bend(const struct output_config *o)
 {
-	return o->method == OUTPUT_BEND || o->method == OUTPUT_MPE;
+	return o->method == RETUNE_BEND || o->method == RETUNE_MPE;
+}
+
+/* The bend an output sends for a key: its own offset, range and factor. */
+static struct bend output_bend(const struct output_config *o, const struct keymap *map, int key)
+{
+	static struct retune_table table; /* single-threaded command, 8 KB */
+	retune_table_build(&table, map, o->cents_offset);
+	const struct retune_key *rk = &table.keys[key];
+	return pitch_bend_for_cents(rk->cents, output_bend_range(o), o->bend_factor);
 }
 
 static void print_seeds(FILE *f, const struct lattice_spec *spec)
@@ -60,15 +70,22 @@ static void print_key_ranges(FILE *f, const struct keymap *map,
 		fputc('\n', f);
 }
 
-void table_print_text(FILE *f, const struct config *cfg, const struct tuning *t)
+void table_print_text(FILE *f, const struct config *cfg, int preset, const struct tuning *t)
 {
 	const struct lattice *lat = &t->lattice;
 	const struct lattice_spec *spec = &lat->spec;
 	const struct keymap *map = &t->keymap;
-	const struct keymap_spec *keys = &cfg->tuning.keys;
+	const struct keymap_spec *keys = &cfg->presets[preset].keys;
 	char label[LATTICE_LABEL_MAX], text[RATIO_TEXT_MAX], name[8];
 
 	fprintf(f, "config   %s\n", cfg->path);
+	if (cfg->preset_count > 1) {
+		fprintf(f, "presets ");
+		for (int i = 0; i < cfg->preset_count; i++)
+			fprintf(f, " %s%s%s", i == preset ? "[" : "", cfg->presets[i].name,
+				i == preset ? "]" : "");
+		fprintf(f, "  (shown in brackets; --preset NAME shows another)\n");
+	}
 	fprintf(f, "lattice  %d of %d seeds (", spec->choose, spec->seed_count);
 	print_seeds(f, spec);
 	fprintf(f, "), period %s, ", ratio_format(spec->period, text, sizeof text));
@@ -141,10 +158,16 @@ void table_print_text(FILE *f, const struct config *cfg, const struct tuning *t)
 		const struct output_config *out = &cfg->outputs[o];
 		char chans[64];
 		fprintf(f, "output   %s: %s on channels %s", out->name,
-			output_method_name(out->method),
+			retune_method_name(out->method),
 			config_format_channels(out->channels, chans, sizeof chans));
 		if (output_uses_bend(out))
-			fprintf(f, ", bend range +-%d semitones", out->bend_range);
+			fprintf(f, ", bend range +-%d semitones", output_bend_range(out));
+		if (out->method == RETUNE_MTS)
+			fprintf(f, ", tuning program %d", out->mts_program);
+		if (out->bend_factor != 1.0)
+			fprintf(f, ", synth plays %.7g of a bend", out->bend_factor);
+		if (out->cents_offset != 0.0)
+			fprintf(f, ", %+g cents", out->cents_offset);
 		fputc('\n', f);
 	}
 
@@ -166,8 +189,7 @@ void table_print_text(FILE *f, const struct config *cfg, const struct tuning *t)
 			const struct output_config *out = &cfg->outputs[o];
 			if (!output_uses_bend(out))
 				continue;
-			struct bend b = pitch_bend_for_cents(kp->cents_off, out->bend_range,
-							     1.0);
+			struct bend b = output_bend(out, map, k);
 			fprintf(f, "  %6u %+7.3f", b.value, b.error_cents);
 		}
 		fprintf(f, "  %02X %02X %02X\n", kp->mts[0], kp->mts[1], kp->mts[2]);
@@ -200,7 +222,7 @@ static struct json_object *key_list(const struct keymap *map, enum key_state sta
 	return list;
 }
 
-int table_print_json(FILE *f, const struct config *cfg, const struct tuning *t)
+int table_print_json(FILE *f, const struct config *cfg, int preset, const struct tuning *t)
 {
 	const struct lattice *lat = &t->lattice;
 	const struct lattice_spec *spec = &lat->spec;
@@ -209,6 +231,11 @@ int table_print_json(FILE *f, const struct config *cfg, const struct tuning *t)
 
 	struct json_object *root = json_object_new_object();
 	json_object_object_add(root, "config", json_object_new_string(cfg->path));
+	json_object_object_add(root, "preset", json_object_new_string(cfg->presets[preset].name));
+	struct json_object *presets = json_object_new_array();
+	for (int i = 0; i < cfg->preset_count; i++)
+		json_object_array_add(presets, json_object_new_string(cfg->presets[i].name));
+	json_object_object_add(root, "presets", presets);
 
 	struct json_object *jl = json_object_new_object();
 	struct json_object *seeds = json_object_new_array();
@@ -271,13 +298,15 @@ int table_print_json(FILE *f, const struct config *cfg, const struct tuning *t)
 		const struct output_config *out = &cfg->outputs[o];
 		struct json_object *jo = json_object_new_object();
 		json_object_object_add(jo, "name", json_object_new_string(out->name));
-		json_object_object_add(jo, "method", json_object_new_string(output_method_name(out->method)));
+		json_object_object_add(jo, "method", json_object_new_string(retune_method_name(out->method)));
 		struct json_object *chans = json_object_new_array();
 		for (int ch = 0; ch < 16; ch++)
 			if (out->channels & (1u << ch))
 				json_object_array_add(chans, json_object_new_int(ch + 1));
 		json_object_object_add(jo, "channels", chans);
-		json_object_object_add(jo, "bend_range", json_object_new_int(out->bend_range));
+		json_object_object_add(jo, "bend_range", json_object_new_int(output_bend_range(out)));
+		json_object_object_add(jo, "bend_factor", fixed(out->bend_factor, 9));
+		json_object_object_add(jo, "cents_offset", fixed(out->cents_offset, 6));
 		json_object_array_add(outputs, jo);
 	}
 	json_object_object_add(root, "outputs", outputs);
@@ -300,8 +329,7 @@ int table_print_json(FILE *f, const struct config *cfg, const struct tuning *t)
 		bool first = true;
 		for (int o = 0; o < cfg->output_count; o++) {
 			const struct output_config *out = &cfg->outputs[o];
-			struct bend b = pitch_bend_for_cents(kp->cents_off, out->bend_range,
-							     1.0);
+			struct bend b = output_bend(out, map, k);
 			if (first) {
 				/* the first output's bend, at top level for quick use */
 				json_object_object_add(jk, "bend", json_object_new_int(b.value));

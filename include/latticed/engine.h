@@ -1,0 +1,242 @@
+/*
+ * engine: the retuning stage for one output.
+ *
+ * Model: a deterministic machine that takes the player's MIDI messages one
+ * at a time and emits, through a callback, the messages one synth needs to
+ * sound every key at its lattice pitch.  It keeps, in fixed tables:
+ *   - the held notes: for each, where it came from (source, channel, key),
+ *     where it went (output channel and key) and its retune in cents, so a
+ *     note-off always reaches the note-on it ends, whatever changed since;
+ *   - per output channel, what the synth was last told (bend, controllers,
+ *     program, pressure), so nothing is re-sent that the synth already has;
+ *   - per input channel, what the player has set (controllers, pedals,
+ *     wheel), so an idle channel is brought up to date just before it next
+ *     plays ("lazy sync": no 15-fold controller traffic on a DIN link).
+ *
+ * Methods:
+ *   bend  one note per channel of a pool, the pitch bend set before the
+ *         note-on; a free channel that already has the right bend is taken
+ *         first, else the free channel released longest ago (its release
+ *         tail rings out undisturbed).  More notes than channels: share a
+ *         channel whose bend is identical, or steal the oldest, or both.
+ *   mts   notes stay on one channel per input channel; each key is tuned
+ *         with a real-time single-note tuning change just before its
+ *         note-on when the synth does not hold that tuning already; the
+ *         tuning program is selected with RPN 3 (and RPN 4 for a bank);
+ *         optionally a bulk dump of the whole table at start and on every
+ *         tuning change.
+ *   mpe   an MPE zone: the configuration message (RPN 6) on the master
+ *         channel, member bend range by RPN 0, notes rotated over members
+ *         like `bend`, the player's wheel and global controllers on the
+ *         master channel.
+ *
+ * Tuning changes (preset, root) apply to new notes only: a sounding note
+ * keeps its channel, key and bend until it is released.  The promise
+ * tested in tests/test_engine.c: every note-on sent is matched by exactly
+ * one note-off on the same channel and key; once the player has released
+ * every key and pedal nothing sounds; a channel's bend changes while it
+ * sounds only by the player's own wheel or per-note bend; every note
+ * sounds within half a bend (or MTS) step of its key's exact pitch.
+ *
+ * No allocation, I/O or locking after engine_init; the callback is the
+ * only way out.  Not thread-safe: one thread drives an engine.
+ */
+#ifndef LATTICED_ENGINE_H
+#define LATTICED_ENGINE_H
+
+#include <stdbool.h>
+#include <stdint.h>
+
+#include "latticed/error.h"
+#include "latticed/keymap.h"
+#include "latticed/lattice.h"
+#include "latticed/midi_msg.h"
+#include "latticed/retune_table.h"
+
+#define ENGINE_MAX_PRESETS 32
+#define ENGINE_MAX_NOTES 512
+#define ENGINE_MAX_SOURCES 16
+#define ENGINE_NAME_MAX 32
+#define ENGINE_SYSEX_MAX 512
+
+enum retune_method { RETUNE_BEND, RETUNE_MTS, RETUNE_MPE };
+enum polyphony_policy { POLY_SHARE_THEN_STEAL, POLY_SHARE, POLY_STEAL };
+enum mts_key_choice { MTS_KEY_NEAREST, MTS_KEY_OWN };
+enum mpe_zone { MPE_ZONE_LOWER, MPE_ZONE_UPPER };
+
+struct engine_output_spec {
+	enum retune_method method;
+	uint16_t channels;           /* bend: rotation pool; mts: note channels */
+	int bend_range;              /* semitones set with RPN 0 */
+	double bend_played;          /* fraction of a bend the synth plays (1, 127/128) */
+	double cents_offset;         /* added to every pitch */
+	enum polyphony_policy polyphony;
+	/* mts */
+	uint8_t mts_device;          /* 0x7F = all devices */
+	uint8_t mts_program;         /* tuning program 0..127 */
+	int mts_bank;                /* -1: no RPN 4 */
+	bool mts_bulk;               /* bulk dump at start and on tuning changes */
+	enum mts_key_choice mts_key;
+	/* mpe */
+	enum mpe_zone mpe_zone;
+	int mpe_members;             /* 1..15 */
+};
+
+struct engine_input_spec {
+	uint16_t channels;           /* channels retuned; the rest pass through */
+	double wheel_range_cents;    /* what the player's full wheel means */
+	bool mpe;                    /* the player is an MPE controller */
+	enum mpe_zone mpe_zone;      /* its zone: master 1 (lower) or 16 (upper) */
+	int mpe_bend_range;          /* semitones of its per-note bend */
+};
+
+struct engine_control_spec {
+	int channel;                 /* 0..15, or -1: none; it steers, never sounds */
+	bool program_selects_preset; /* program change on that channel */
+	int preset_cc;               /* CC number on that channel, -1 none */
+	int root_cc;                 /* value 0 = home, n = tone n-1 becomes 1/1 */
+	int preset_keys;             /* first reserved key, -1 none */
+	int root_keys;               /* first reserved key: home, tone 0, tone 1, ... */
+};
+
+struct engine_spec {
+	struct engine_output_spec output;
+	struct engine_input_spec input;
+	struct engine_control_spec control;
+};
+
+struct engine_preset {
+	char name[ENGINE_NAME_MAX];
+	const struct lattice *lattice;
+	const struct keymap *keymap;
+};
+
+/* Owned by the caller; must stay unchanged while an engine uses it. */
+struct engine_tunings {
+	int count;
+	struct engine_preset presets[ENGINE_MAX_PRESETS];
+};
+
+typedef void (*engine_emit_fn)(void *context, const struct midi_msg *msg);
+
+/* One-shot warnings for the shell to log (engine_take_notices). */
+enum engine_notice {
+	NOTICE_BEND_CLAMPED = 1u << 0,       /* retune + wheel beyond the bend range */
+	NOTICE_NOTE_DROPPED = 1u << 1,       /* no channel or key free for a note */
+	NOTICE_NOTE_STOLEN = 1u << 2,
+	NOTICE_PASSTHROUGH_BLOCKED = 1u << 3,/* a pass-through channel is one we retune on */
+	NOTICE_NOTES_FULL = 1u << 4,
+};
+
+struct engine_stats {
+	uint32_t notes_on;
+	uint32_t notes_shared;
+	uint32_t notes_stolen;
+	uint32_t notes_dropped;
+	uint32_t silent_keys;            /* note-ons on keys that play nothing */
+	uint32_t bends_clamped;
+	uint32_t passthrough_blocked;
+	uint32_t tuning_changes;         /* MTS single-note changes sent */
+	uint32_t messages_out;
+};
+
+enum note_phase { NOTE_FREE, NOTE_DOWN, NOTE_RINGING };
+
+struct engine_note {
+	enum note_phase phase;
+	uint8_t source, in_channel, in_key;
+	uint8_t out_channel, out_key;
+	bool sostenuto_latched;
+	uint32_t started;
+	double retune_cents;             /* carried by the bend (bend, mpe) */
+	double note;                     /* exact pitch as a note number */
+	int16_t preset, tone, period;
+};
+
+struct engine_out_channel {
+	bool in_pool;
+	int note_count;                  /* notes down or ringing on it */
+	uint8_t source_channel;          /* input channel of those notes */
+	uint32_t freed_at;               /* serial of its last release (LRU) */
+	bool bend_known;
+	uint16_t bend;
+	double retune_cents;             /* of the notes on it */
+	uint8_t cc[128];
+	uint8_t cc_known[16];            /* bit set: cc[] holds what the synth has */
+	bool program_known, pressure_known;
+	uint8_t program, pressure;
+	uint8_t keys_on[16];             /* out keys sounding on it */
+};
+
+struct engine_in_channel {
+	uint8_t cc[128];
+	uint8_t cc_set[16];
+	bool program_set, pressure_set;
+	uint8_t program, pressure;
+	uint16_t bend;                   /* raw wheel / per-note bend, 8192 centre */
+	double range_cents;              /* what its full bend means */
+	bool sustain, sostenuto;
+	uint8_t param_msb, param_lsb;    /* current RPN/NRPN selection */
+	bool param_is_nrpn;
+	uint8_t data_msb, data_lsb;
+};
+
+struct engine {
+	struct engine_spec spec;
+	const struct engine_tunings *tunings;
+	engine_emit_fn emit;
+	void *context;
+
+	int preset;
+	int root_slot;                   /* 0 = home, t+1 = tone t is 1/1 */
+	struct retune_table table;
+
+	uint32_t serial;
+	struct engine_note notes[ENGINE_MAX_NOTES];
+	int note_count;
+	int16_t key_down[ENGINE_MAX_SOURCES][16][128];
+	struct engine_out_channel out[16];
+	struct engine_in_channel in[16];
+	uint8_t master_channel;          /* mpe output */
+	uint8_t mts_channel_of[16];      /* mts: input channel -> output channel */
+	uint8_t mts_held[128][3];        /* words the synth holds (mts) */
+	bool mts_held_known[128];
+	int reserved_root_keys;
+
+	uint32_t notices;
+	uint32_t notices_reported;
+	struct engine_stats stats;
+	uint8_t sysex[ENGINE_SYSEX_MAX];
+};
+
+/* Checks the spec and prepares the engine; emits nothing yet. */
+bool engine_init(struct engine *e, const struct engine_spec *spec,
+		 const struct engine_tunings *tunings, engine_emit_fn emit,
+		 void *context, struct core_error *err);
+
+/* Sends the synth set-up (bend ranges, MPE zone, MTS program and tables);
+ * call at start and whenever the output reconnects. */
+void engine_start(struct engine *e);
+
+/* Handles one message from input `source` (0..ENGINE_MAX_SOURCES-1). */
+void engine_handle(struct engine *e, uint8_t source, const struct midi_msg *m);
+
+/* Ends every note that `source` started (its device went away). */
+void engine_end_source(struct engine *e, uint8_t source);
+
+/* Note-off for every note, then all-sound-off and all-notes-off on every
+ * channel the output uses.  Keys still held play nothing until pressed again. */
+void engine_panic(struct engine *e);
+
+/* Tuning changes for new notes.  Return false if out of range. */
+bool engine_select_preset(struct engine *e, int preset);
+bool engine_select_root(struct engine *e, int slot);
+/* Takes new tunings (a reload); keeps the preset by name if it still exists. */
+void engine_replace_tunings(struct engine *e, const struct engine_tunings *tunings);
+
+/* Warnings raised since the last call, each reported once per engine. */
+uint32_t engine_take_notices(struct engine *e);
+
+const char *retune_method_name(enum retune_method method);
+
+#endif

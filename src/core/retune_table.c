@@ -1,0 +1,44 @@
+/*
+ * retune_table: shifts a key map's pitches and recomputes the MIDI side
+ * (see retune_table.h).
+ */
+#include "latticed/retune_table.h"
+
+#include <math.h>
+#include <string.h>
+
+#include "latticed/pitch.h"
+
+void retune_table_build(struct retune_table *t, const struct keymap *map,
+			double shift_cents)
+{
+	memset(t, 0, sizeof *t);
+	for (int key = 0; key < 128; key++) {
+		const struct key_pitch *src = &map->keys[key];
+		struct retune_key *k = &t->keys[key];
+		k->tone = src->tone;
+		k->period = src->period;
+		if (src->state != KEY_SOUNDING)
+			continue;
+		k->note = src->note + shift_cents / 100.0;
+		if (!pitch_mts_word(k->note, k->mts))
+			continue;
+		long nearest = lround(k->note);
+		if (nearest > 127)
+			nearest = 127;
+		k->out_key = (uint8_t)nearest;
+		k->cents = (k->note - (double)nearest) * 100.0;
+		k->sounding = true;
+	}
+}
+
+double retune_root_shift(const struct lattice *lat, int tone)
+{
+	if (tone < 0 || tone >= lat->tone_count)
+		return 0.0;
+	double period = ratio_cents(lat->spec.period);
+	double shift = lat->tones[tone].cents;
+	if (shift > period / 2)
+		shift -= period;
+	return shift;
+}
