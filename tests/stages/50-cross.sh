@@ -41,7 +41,7 @@ for arch in arm64 armhf; do
 done
 # libc6-dev-*-cross must be named: the cross gcc only recommends it.
 # shellcheck disable=SC2086
-apt_install $BUILD_PACKAGES python3 dpkg-dev file \
+apt_install $BUILD_PACKAGES python3-mido dpkg-dev file \
 	gcc-aarch64-linux-gnu libc6-dev-arm64-cross \
 	gcc-arm-linux-gnueabihf libc6-dev-armhf-cross \
 	qemu-user $target_packages
