@@ -21,8 +21,15 @@
 # The maintainer scripts in packaging/deb/ run the service as the system
 # user `latticed` (group audio), never as root.
 
-set(LATTICED_SYSTEMD_UNITDIR "/lib/systemd/system" CACHE PATH
-    "Where systemd units are installed (Debian 12: /lib/systemd/system)")
+# Debian 12's own units live in /lib/systemd/system; a build for another
+# prefix (e.g. /usr/local) keeps its units under that prefix, where systemd
+# also looks (/usr/local/lib/systemd/system).
+if(CMAKE_INSTALL_PREFIX STREQUAL "/usr")
+  set(_unitdir "/lib/systemd/system")
+else()
+  set(_unitdir "${CMAKE_INSTALL_PREFIX}/lib/systemd/system")
+endif()
+set(LATTICED_SYSTEMD_UNITDIR "${_unitdir}" CACHE PATH "Where systemd units are installed")
 set(LATTICED_PACKAGE_MAINTAINER "latticed developers <latticed@example.org>" CACHE STRING
     "Maintainer field of the Debian package")
 

@@ -17,10 +17,10 @@
 
 TARGET_LIBS="libasound2-dev libinih-dev libjson-c-dev libcmocka-dev libsystemd-dev libportmidi0"
 
-foreign=$(dpkg --print-foreign-architectures)
+foreign=$(dpkg --print-foreign-architectures | tr "\n" " ")
 added=""
 for arch in arm64 armhf; do
-	case " $(echo $foreign) " in
+	case " $foreign " in
 	*" $arch "*) ;;
 	*)
 		${LATTICED_SUDO:-} dpkg --add-architecture "$arch"

@@ -121,7 +121,9 @@ account=$(in_root getent passwd latticed) || fail "no system user latticed"
 echo "service account: $account"
 uid=$(echo "$account" | cut -d: -f3)
 gid=$(echo "$account" | cut -d: -f4)
-[ "$uid" -ne 0 ] && [ "$uid" -lt 1000 ] || fail "latticed is not a system user (uid $uid)"
+if [ "$uid" -eq 0 ] || [ "$uid" -ge 1000 ]; then
+	fail "latticed is not a system user (uid $uid)"
+fi
 [ "$gid" = "$(in_root getent group audio | cut -d: -f3)" ] || fail "latticed's group is not audio"
 [ "$(in_root stat -c %U:%G:%a /var/lib/latticed)" = latticed:audio:750 ] || fail "/var/lib/latticed is not latticed:audio mode 750"
 for page in man8/latticed.8.gz man5/latticed.conf.5.gz; do
