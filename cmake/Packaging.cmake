@@ -3,7 +3,7 @@
 #
 # Installed here, each only when its source exists, so man pages, units and
 # documents can arrive in any order without editing this file:
-#   doc/*.[1-8]          gzip -9n'd into share/man/manN (Debian policy 12.1)
+#   doc/*.[1-8]          gzip -9n'd into share/man/manN (Debian policy, "Manual pages")
 #   systemd/*.service    (and .socket/.timer/.path; NAME.in files are filled
 #                        in with @VAR@ first, e.g. @CMAKE_INSTALL_FULL_BINDIR@)
 #                        into LATTICED_SYSTEMD_UNITDIR
@@ -113,7 +113,7 @@ install(FILES "${PROJECT_SOURCE_DIR}/packaging/deb/lintian-overrides"
         DESTINATION "${CMAKE_INSTALL_DATAROOTDIR}/lintian/overrides" RENAME ${PROJECT_NAME})
 
 # A package built from this tree is a native Debian package, so its
-# changelog is changelog.gz (Debian policy 12.7).  Its date honours
+# changelog is changelog.gz (Debian policy, "Changelog files").  Its date honours
 # SOURCE_DATE_EPOCH, so a package can be rebuilt byte for byte.
 string(TIMESTAMP _changelog_date "%a, %d %b %Y %H:%M:%S +0000" UTC)
 file(WRITE "${_pkg_out}/changelog"

@@ -6,7 +6,7 @@
 #
 # Writes the Debian conffiles list: every file the package ships under
 # /etc, so dpkg keeps a changed config on upgrade and removal (Debian
-# policy 10.7.2, which debhelper's dh_installdeb applies the same way).
+# policy on configuration files, which debhelper's dh_installdeb applies the same way).
 # Refuses a tree configured for another prefix: the binary looks for its
 # config at the compiled-in path, which must be the /etc in the package.
 if(NOT CPACK_LATTICED_INSTALL_PREFIX STREQUAL "/usr")
