@@ -213,6 +213,14 @@ static const struct engine_preset *current_preset(const struct engine *e)
 	return &e->tunings->presets[e->preset];
 }
 
+static int mts_key_users(const struct engine *e, int key)
+{
+	int users = 0;
+	for (int ch = 0; ch < 16; ch++)
+		users += bit_get(e->out[ch].keys_on, key);
+	return users;
+}
+
 static void mts_send_bulk(struct engine *e)
 {
 	uint8_t words[128][3];
@@ -231,6 +239,10 @@ static void mts_send_bulk(struct engine *e)
 		claimed[target] = true;
 		memcpy(words[target], rk->mts, 3);
 	}
+	/* a key that sounds keeps its tuning: synths may apply a dump at once */
+	for (int k = 0; k < 128; k++)
+		if (mts_key_users(e, k) > 0 && e->mts_held_known[k])
+			memcpy(words[k], e->mts_held[k], 3);
 	size_t n = mts_bulk_dump(e->spec.output.mts_device, e->spec.output.mts_program,
 				 current_preset(e)->name, (const uint8_t (*)[3])words,
 				 e->sysex, sizeof e->sysex);
@@ -423,14 +435,6 @@ static int alloc_note(struct engine *e)
 		if (e->notes[i].phase == NOTE_FREE)
 			return i;
 	return NO_NOTE;
-}
-
-static int mts_key_users(const struct engine *e, int key)
-{
-	int users = 0;
-	for (int ch = 0; ch < 16; ch++)
-		users += bit_get(e->out[ch].keys_on, key);
-	return users;
 }
 
 /* The note leaves its channel (and key) for good. */
@@ -912,6 +916,9 @@ static void mode_cc(struct engine *e, int ch, int cc)
 
 static void control_change(struct engine *e, int ch, int cc, int value)
 {
+	/* pedals hold the whole zone of an MPE controller, wherever they arrive */
+	if ((cc == 64 || cc == 66) && is_mpe_member(e, ch))
+		ch = input_master(e);
 	struct engine_in_channel *c = &e->in[ch];
 	if (cc >= 120) {
 		mode_cc(e, ch, cc);

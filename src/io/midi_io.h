@@ -1,0 +1,98 @@
+/*
+ * midi_io: the one small interface every MIDI backend implements.
+ *
+ * Contract (all backends):
+ *   - open() creates the daemon's ports: one input (any number of devices
+ *     may feed it; each feeding device is a "source", numbered 0..15 by the
+ *     backend) and one output per configured output, and connects whatever
+ *     matches the configured name patterns.  It fails with one line saying
+ *     what is missing and how to fix it.
+ *   - The input side runs on the input thread only: input_fds() gives the
+ *     descriptors to poll for POLLIN, or none and a tick in milliseconds
+ *     for a backend that must be polled (PortMidi has no descriptor).
+ *     service_input() reads everything pending and reports it through the
+ *     callbacks: raw MIDI bytes per source, in arrival order (SysEx may
+ *     come in several pieces; the daemon's parser per source joins them),
+ *     and connection events.  Hotplug (a matching port appearing) is
+ *     handled inside service_input().
+ *   - The output side runs on the output thread only: send() queues one
+ *     complete message for one output without blocking and returns false
+ *     if it cannot (the caller counts a drop); flush() pushes queued
+ *     messages out after a batch.
+ *   - describe() (input thread) and list() (any thread, no open needed)
+ *     report ports and connections as text lines for `latticed status`
+ *     and `latticed ports`.
+ * Events and bytes are converted at this edge: nothing above sees a
+ * backend's own event types.
+ */
+#ifndef LATTICED_MIDI_IO_H
+#define LATTICED_MIDI_IO_H
+
+#include <poll.h>
+#include <stdbool.h>
+#include <stddef.h>
+#include <stdint.h>
+
+#define MIDI_IO_MAX_OUTPUTS 8
+#define MIDI_IO_MAX_PATTERNS 8
+#define MIDI_IO_MAX_SOURCES 16
+#define MIDI_IO_NAME_MAX 64
+
+enum midi_io_event {
+	MIDI_IO_SOURCE_CONNECTED,   /* index = source */
+	MIDI_IO_SOURCE_GONE,        /* index = source: end the notes it started */
+	MIDI_IO_OUTPUT_CONNECTED,   /* index = output: send its set-up again */
+	MIDI_IO_OUTPUT_GONE,        /* index = output: nothing listens now */
+};
+
+struct midi_io_callbacks {
+	void *context;
+	void (*input)(void *context, uint8_t source, const uint8_t *bytes, size_t length);
+	/* name: the port or device concerned, e.g. "USB Keys:USB Keys MIDI 1" */
+	void (*event)(void *context, enum midi_io_event kind, int index, const char *name);
+};
+
+struct midi_io_port_spec {
+	char name[MIDI_IO_NAME_MAX];             /* our port's name */
+	int connect_count;
+	char connect[MIDI_IO_MAX_PATTERNS][MIDI_IO_NAME_MAX]; /* fnmatch patterns */
+};
+
+struct midi_io_spec {
+	char client_name[MIDI_IO_NAME_MAX];      /* "latticed" */
+	struct midi_io_port_spec input;          /* name "in" */
+	int output_count;
+	struct midi_io_port_spec outputs[MIDI_IO_MAX_OUTPUTS];
+};
+
+struct midi_io; /* a backend's own state */
+
+typedef void (*midi_io_line_fn)(void *context, const char *line);
+
+struct midi_io_backend {
+	const char *name;
+	struct midi_io *(*open)(const struct midi_io_spec *spec,
+				const struct midi_io_callbacks *callbacks,
+				char *err, size_t err_size);
+	int (*input_fds)(struct midi_io *io, struct pollfd *fds, int max, int *tick_ms);
+	void (*service_input)(struct midi_io *io);
+	bool (*send)(struct midi_io *io, int output, const uint8_t *bytes, size_t length);
+	void (*flush)(struct midi_io *io);
+	void (*describe)(struct midi_io *io, midi_io_line_fn line, void *context);
+	bool (*list)(midi_io_line_fn line, void *context, char *err, size_t err_size);
+	void (*close)(struct midi_io *io);
+};
+
+/* The backend called `name` ("alsa", "portmidi", "raw", "null"), or NULL
+ * if it is unknown or was not built. */
+const struct midi_io_backend *midi_io_find(const char *name);
+
+/* Names of the backends built into this binary, comma separated. */
+const char *midi_io_available(void);
+
+/* Does `name` match one of the port's patterns (fnmatch)?  For a port
+ * "client:port", the pattern may match the whole name, the client or the port. */
+bool midi_io_matches(const struct midi_io_port_spec *port, const char *client,
+		     const char *port_name);
+
+#endif
