@@ -500,6 +500,25 @@ static void panic_and_vanished_source(void **state)
 	assert_int_equal(model.violations, 0);
 }
 
+static void vanished_device_lets_its_pedal_go(void **state)
+{
+	(void)state;
+	struct engine_spec s = default_spec(RETUNE_BEND);
+	start(&s);
+	struct midi_msg pedal = midi_msg_control(0, 64, 127), on = midi_msg_note_on(0, 60, 90);
+	engine_handle(&h.engine, 2, &pedal);
+	engine_handle(&h.engine, 2, &on);
+	harness_clear(&h);
+	engine_end_source(&h.engine, 2); /* the keyboard was unplugged */
+	/* its note ends and its pedal comes up: nothing left sustaining */
+	EXPECT(0x81, 64, 64, 0xB1, 64, 0);
+	assert_int_equal(model_sounding_count(&model), 0);
+	/* another device's pedal is not touched */
+	engine_handle(&h.engine, 3, &pedal);
+	engine_end_source(&h.engine, 2);
+	assert_true(h.engine.in[0].sustain);
+}
+
 /* ---- mts and mpe ----------------------------------------------------------- */
 
 static void mts_tunes_a_key_before_its_note(void **state)
@@ -1028,6 +1047,7 @@ int main(void)
 		cmocka_unit_test(presets_and_roots_apply_to_new_notes),
 		cmocka_unit_test(reserved_keys_steer),
 		cmocka_unit_test(panic_and_vanished_source),
+		cmocka_unit_test(vanished_device_lets_its_pedal_go),
 		cmocka_unit_test(mts_tunes_a_key_before_its_note),
 		cmocka_unit_test(mts_never_retunes_a_sounding_key),
 		cmocka_unit_test(mts_bulk_dump_with_checksum),

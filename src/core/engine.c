@@ -951,7 +951,7 @@ static void mode_cc(struct engine *e, int ch, int cc)
 	}
 }
 
-static void control_change(struct engine *e, int ch, int cc, int value)
+static void control_change(struct engine *e, uint8_t source, int ch, int cc, int value)
 {
 	/* pedals hold the whole zone of an MPE controller, wherever they arrive */
 	if ((cc == 64 || cc == 66) && is_mpe_member(e, ch))
@@ -978,7 +978,9 @@ static void control_change(struct engine *e, int ch, int cc, int value)
 		bool down = value >= 64;
 		if (cc == 64) {
 			e->in[g].sustain = down;
+			e->in[g].sustain_source = source;
 		} else {
+			e->in[g].sostenuto_source = source;
 			if (down && !e->in[g].sostenuto) {
 				/* sostenuto holds the notes that are down right now */
 				for (int i = 0; i < ENGINE_MAX_NOTES; i++) {
@@ -1067,7 +1069,7 @@ static void channel_message(struct engine *e, uint8_t source, const struct midi_
 		poly_pressure(e, source, ch, m->data[0], m->data[1]);
 		break;
 	case MIDI_CONTROL:
-		control_change(e, ch, m->data[0], m->data[1]);
+		control_change(e, source, ch, m->data[0], m->data[1]);
 		break;
 	case MIDI_PROGRAM:
 		e->in[ch].program = m->data[0];
@@ -1119,6 +1121,15 @@ void engine_end_source(struct engine *e, uint8_t source)
 		struct engine_note *n = &e->notes[i];
 		if (n->phase == NOTE_DOWN && n->source == source)
 			release_note(e, i, 64);
+	}
+	/* a pedal held down by the device that went away is let go, as if its
+	 * foot came off: otherwise the synth would sustain forever */
+	for (int ch = 0; ch < 16; ch++) {
+		struct engine_in_channel *c = &e->in[ch];
+		if (c->sustain && c->sustain_source == source)
+			control_change(e, source, ch, 64, 0);
+		if (c->sostenuto && c->sostenuto_source == source)
+			control_change(e, source, ch, 66, 0);
 	}
 }
 
