@@ -303,7 +303,11 @@ def main():
     def status():
         rc, out, err = client("status", "--json")
         check(rc == 0, "status --json exits 0 (%s)" % err.strip())
-        return json.loads(out)
+        try:
+            return json.loads(out)
+        except ValueError:
+            check(False, "status --json prints JSON (%r)" % out[:200])
+            return {"outputs": [], "sources": [], "preset": {}, "root": {}}
 
     def log_text():
         log.flush()

@@ -241,7 +241,8 @@ void control_server_reply(struct control_server *s, int id, const char *line)
 		drop_client(c);
 		return;
 	}
-	memcpy(out, c->out + c->out_sent, pending);
+	if (pending)
+		memcpy(out, c->out + c->out_sent, pending);
 	memcpy(out + pending, line, length);
 	out[pending + length] = '\n';
 	free(c->out);

@@ -352,7 +352,12 @@ static void on_request(void *context, int id, const char *line)
 		post_or_fail(d, id, &r);
 	} else if (strcmp(word, "preset") == 0 && arg[0]) {
 		r.kind = REQUEST_PRESET;
-		snprintf(r.name, sizeof r.name, "%s", arg);
+		size_t len = strlen(arg);
+		if (len >= sizeof r.name) {
+			reply_simple(d, id, false, "no preset has a name that long");
+			return;
+		}
+		memcpy(r.name, arg, len + 1);
 		if (!parse_number(arg, &r.number))
 			r.number = -1;
 		post_or_fail(d, id, &r);
