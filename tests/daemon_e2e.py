@@ -34,6 +34,7 @@ from fractions import Fraction
 from itertools import combinations
 
 BIN = sys.argv[1]
+WITH_SYSTEMD = "--systemd" in sys.argv[2:]
 FAILS = []
 
 
@@ -284,6 +285,54 @@ connect = {dir}/mts.fifo
 """
 
 
+def notify_checks(tmp, conf):
+    """sd_notify(3) protocol: datagrams on $NOTIFY_SOCKET; the watchdog
+    period comes in $WATCHDOG_USEC and pings are due every half of it
+    (sd_watchdog_enabled(3))."""
+    import socket
+    path = os.path.join(tmp, "notify.sock")
+    sock = socket.socket(socket.AF_UNIX, socket.SOCK_DGRAM)
+    sock.bind(path)
+    sock.settimeout(0.05)
+    env = dict(os.environ, NOTIFY_SOCKET=path, WATCHDOG_USEC="400000")
+    os.mkfifo(os.path.join(tmp, "in2.fifo"))
+    conf2 = os.path.join(tmp, "n.conf")
+    with open(conf2, "w") as f:
+        f.write(open(conf).read().replace("in.fifo", "in2.fifo").replace("/run/control", "/run2/control")
+                .replace("mts.fifo", "mts2.bin"))
+    p = subprocess.Popen([BIN, "run", "--config", conf2], env=env, stderr=subprocess.DEVNULL)
+    got = []
+
+    def collect(seconds):
+        end = time.time() + seconds
+        while time.time() < end:
+            try:
+                got.append(sock.recv(4096).decode())
+            except socket.timeout:
+                pass
+    try:
+        collect(1.2)
+        check(got and got[0] == "READY=1", "systemd: READY=1 first (%s)" % got[:2])
+        check(any(m.startswith("STATUS=Running") for m in got), "systemd: a STATUS= line")
+        pings = sum(1 for m in got if m == "WATCHDOG=1")
+        check(pings >= 3, "systemd: WATCHDOG=1 about every 0.2 s with no MIDI (%d in 1.2 s)" % pings)
+        got.clear()
+        p.send_signal(signal.SIGHUP)
+        collect(0.5)
+        check("RELOADING=1" in got and "READY=1" in got[got.index("RELOADING=1"):],
+              "systemd: RELOADING=1 then READY=1 around a reload (%s)" % got)
+        got.clear()
+        p.send_signal(signal.SIGTERM)
+        rc = p.wait(timeout=10)
+        collect(0.1)
+        check(rc == 0 and "STOPPING=1" in got, "systemd: STOPPING=1 on SIGTERM (%s, rc %s)" % (got, rc))
+    finally:
+        if p.poll() is None:
+            p.kill()
+            p.wait()
+        sock.close()
+
+
 def main():
     tmp = tempfile.mkdtemp(prefix="latticed-e2e-")
     conf = os.path.join(tmp, "t.conf")
@@ -495,6 +544,10 @@ def main():
         r = subprocess.run([BIN, "run", "--config", conf], capture_output=True, text=True, timeout=10)
         check(r.returncode == 1 and "cannot open input %s/missing.fifo" % tmp in r.stderr and "mkfifo" in r.stderr,
               "a missing input: one line naming it and the fix (%s)" % r.stderr.strip())
+        with open(conf, "w") as f:
+            f.write(good)
+        if WITH_SYSTEMD:
+            notify_checks(tmp, conf)
     finally:
         if proc.poll() is None:
             proc.kill()

@@ -1,7 +1,7 @@
 # The daemon's threads under ThreadSanitizer: the queue tests (two threads,
 # 10^6 items) and the end-to-end daemon test.  Any data race fails them.
 . "$LATTICED_SOURCE_DIR/tests/stages/lib.sh"
-apt_install $BUILD_PACKAGES libsystemd-dev
+apt_install $BUILD_PACKAGES
 export TSAN_OPTIONS="halt_on_error=1 exitcode=66"
 dir="$LATTICED_BUILD_ROOT/tsan"
 cmake -S "$LATTICED_SOURCE_DIR" -B "$dir" -DLATTICED_WERROR=ON -DCMAKE_BUILD_TYPE=Debug \
