@@ -544,6 +544,17 @@ def main():
         r = subprocess.run([BIN, "run", "--config", conf], capture_output=True, text=True, timeout=10)
         check(r.returncode == 1 and "cannot open input %s/missing.fifo" % tmp in r.stderr and "mkfifo" in r.stderr,
               "a missing input: one line naming it and the fix (%s)" % r.stderr.strip())
+        # the ALSA backend (when built) on a machine without the sequencer:
+        # one line naming what is missing, exit 1 (same check on every backend)
+        version = subprocess.run([BIN, "--version"], capture_output=True, text=True).stdout
+        if "alsa" in version and not os.path.exists("/dev/snd/seq"):
+            with open(conf, "w") as f:
+                f.write(good)
+            r = subprocess.run([BIN, "run", "--config", conf, "--backend", "alsa"],
+                               capture_output=True, text=True, timeout=10)
+            lines = r.stderr.splitlines()
+            check(r.returncode == 1 and len(lines) == 1 and lines[0].startswith("error: "),
+                  "no sequencer: one error line and exit 1 (%r)" % r.stderr)
         with open(conf, "w") as f:
             f.write(good)
         if WITH_SYSTEMD:
