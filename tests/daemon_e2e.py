@@ -276,6 +276,7 @@ root_hz = 110
 [output synth]
 method = bend
 channels = 2-9
+running_status = yes
 connect = {dir}/synth.bin
 
 [output mts]
@@ -422,6 +423,11 @@ def main():
             check(sounding_ch and n.get("out_channel") == sounding_ch[0] + 1,
                   "status: out channel of key %d matches the stream" % key)
         check(out["synth"]["queue_drops"] == 0 and out["synth"]["send_drops"] == 0, "no drops")
+        # running_status = yes (MIDI 1.0 running status): the file holds fewer
+        # bytes than three per message
+        size = os.path.getsize(os.path.join(tmp, "synth.bin"))
+        check(size < 3 * out["synth"]["sent"], "running status saves bytes (%d bytes for %d messages)"
+              % (size, out["synth"]["sent"]))
         check(len(st["sources"]) == 1 and st["sources"][0]["connected"], "status: the source is connected")
 
         # 3. preset: new notes only; the held chord keeps its bend

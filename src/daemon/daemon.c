@@ -442,7 +442,7 @@ static void watchdog_tick(struct daemon *d)
 	if (!d->watchdog_usec)
 		return;
 	int64_t now = monotonic_ms();
-	if (now - d->last_ping_ms < (int64_t)(d->watchdog_usec / 2000))
+	if (now - d->last_ping_ms < (int64_t)(d->watchdog_usec / 4000))
 		return;
 	uint64_t beat = atomic_load_explicit(&d->in->heartbeat, memory_order_relaxed);
 	if (beat == d->last_heartbeat) {
@@ -595,8 +595,8 @@ static void main_loop(struct daemon *d)
 		fds[0] = (struct pollfd){.fd = d->main_wake_fd, .events = POLLIN};
 		int n = 1 + control_server_pollfds(&d->control, fds + 1, MAIN_POLL_MAX - 1);
 		int timeout_ms = DEFAULT_HEARTBEAT_MS;
-		if (d->watchdog_usec && (int)(d->watchdog_usec / 2000) < timeout_ms)
-			timeout_ms = (int)(d->watchdog_usec / 2000);
+		if (d->watchdog_usec && (int)(d->watchdog_usec / 4000) < timeout_ms)
+			timeout_ms = (int)(d->watchdog_usec / 4000);
 		struct timespec timeout = {timeout_ms / 1000, (long)(timeout_ms % 1000) * 1000000L};
 		int ready = ppoll(fds, (nfds_t)n, &timeout, &d->run_mask);
 		if (ready > 0 && (fds[0].revents & POLLIN))
@@ -661,8 +661,9 @@ int daemon_run(const struct daemon_options *options)
 	}
 	d.watchdog_usec = notify_watchdog_usec();
 	d.in->heartbeat_ms = DEFAULT_HEARTBEAT_MS;
-	if (d.watchdog_usec && d.watchdog_usec / 4000 < (uint64_t)d.in->heartbeat_ms)
-		d.in->heartbeat_ms = (int)(d.watchdog_usec / 4000) > 0 ? (int)(d.watchdog_usec / 4000) : 1;
+	/* pings go every quarter period, each needing a fresh heartbeat: beat twice as often */
+	if (d.watchdog_usec && d.watchdog_usec / 8000 < (uint64_t)d.in->heartbeat_ms)
+		d.in->heartbeat_ms = (int)(d.watchdog_usec / 8000) > 0 ? (int)(d.watchdog_usec / 8000) : 1;
 	d.in->messages = d.messages;
 	d.in->output = d.out;
 	d.in->output_wake_fd = d.out->wake_fd;

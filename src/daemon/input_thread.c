@@ -136,6 +136,10 @@ static void on_event(void *context, enum midi_io_event kind, int index, const ch
 	} else if (index >= 0 && index < t->output_count) {
 		struct input_output *o = &t->outputs[index];
 		if (kind == MIDI_IO_OUTPUT_CONNECTED) {
+			/* the new receiver knows no running status: tell the output thread first */
+			uint8_t marker = 0;
+			if (msg_queue_push(t->messages, (uint8_t)(MSG_OUTPUT_RECONNECTED | o->index), &marker, 1))
+				t->wake_output = true;
 			log_ring_post(&t->log, LOG_LEVEL_INFO,
 				      "output %s: connected to %s; sending its set-up", o->name, what);
 			engine_start(&o->engine);

@@ -25,6 +25,11 @@
 
 enum { MSG_SLOT_FIRST = 1, MSG_SLOT_LAST = 2 };
 
+/* An output index with this bit set is a marker, not a message: the output
+ * (index without the bit) was reconnected, so what the receiver holds is
+ * unknown (e.g. its running status). */
+#define MSG_OUTPUT_RECONNECTED 0x80
+
 struct msg_slot {
 	uint8_t output;
 	uint8_t flags;

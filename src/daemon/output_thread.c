@@ -116,6 +116,11 @@ static int drain(struct output_thread *t, bool retry)
 	uint8_t output;
 	size_t length;
 	while ((length = msg_queue_pop(t->messages, &output, t->buffer, sizeof t->buffer)) > 0) {
+		if (output & MSG_OUTPUT_RECONNECTED) {
+			if ((output & ~MSG_OUTPUT_RECONNECTED) < t->output_count)
+				t->wire_status[output & ~MSG_OUTPUT_RECONNECTED] = 0;
+			continue;
+		}
 		if (output >= t->output_count)
 			continue;
 		if (send_one(t, output, t->buffer, length, retry))
