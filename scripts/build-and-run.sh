@@ -1,11 +1,13 @@
 #!/bin/sh
-# Builds latticed on a fresh Debian 12 / Raspberry Pi OS machine and runs
-# it on the shipped default configuration (config/latticed.conf).
+# Builds latticed on a fresh Debian 12 / Raspberry Pi OS machine and starts
+# the daemon on the shipped default configuration (config/latticed.conf).
 #
 # Installs the build dependencies (as root, or through sudo), builds into
-# build/, then runs `latticed table` on the default config.  Extra
-# arguments are passed to latticed instead, e.g.:
+# build/, then runs `latticed run` on the default config in the foreground:
+# its log goes to the terminal, Ctrl-C stops it (every note is ended
+# first).  Extra arguments run another command instead, e.g.:
 #   scripts/build-and-run.sh table --json
+#   scripts/build-and-run.sh run --backend null
 set -eu
 top=$(cd "$(dirname "$0")/.." && pwd)
 cd "$top"
@@ -18,7 +20,7 @@ else
 	echo "build-and-run.sh: installing Debian packages needs root; run it as root or install sudo" >&2
 	exit 1
 fi
-packages="build-essential cmake pkg-config libinih-dev libjson-c-dev"
+packages="build-essential cmake pkg-config libinih-dev libjson-c-dev libsystemd-dev libasound2-dev libportmidi-dev"
 missing=""
 for p in $packages; do
 	dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed" || missing="$missing $p"
@@ -34,7 +36,8 @@ cmake -S . -B build -DLATTICED_TESTS=OFF >/dev/null
 cmake --build build -j"$(nproc)" >/dev/null
 
 if [ $# -eq 0 ]; then
-	set -- table
+	set -- run
+	echo "starting latticed on config/latticed.conf; Ctrl-C stops it" >&2
 fi
 command=$1
 shift

@@ -27,6 +27,7 @@ status_is() { # status_is WANT COMMAND...
 
 check "--help exits 0" status_is 0 "$bin" --help
 check "--help lists table" grep -q '^  table ' "$tmp/out"
+check "--help lists render" grep -q '^  render ' "$tmp/out"
 check "--version exits 0" status_is 0 "$bin" --version
 check "--version prints the name" grep -q '^latticed [0-9]' "$tmp/out"
 check "no command is a usage error" status_is 2 "$bin"

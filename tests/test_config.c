@@ -16,6 +16,7 @@
 #include <string.h>
 
 #include "config.h"
+#include "midi_io.h"
 
 static struct config cfg;
 static struct config_report report;
@@ -80,10 +81,11 @@ static void shipped_file_documents_every_key(void **state)
 	char *text = read_file(LATTICED_SOURCE_DIR "/config/latticed.conf", &length);
 	for (int i = 0; i < config_key_count(); i++) {
 		const struct config_key_info *k = config_key_at(i);
-		char line[256], documented[256];
+		char line[256], commented[256], documented[256];
 		snprintf(line, sizeof line, "\n%s = %s", k->key, k->default_text);
+		snprintf(commented, sizeof commented, "\n;%s = %s", k->key, k->default_text);
 		snprintf(documented, sizeof documented, "; %s:", k->key);
-		if (k->default_text[0] && !strstr(text, line))
+		if (k->default_text[0] && !strstr(text, line) && !strstr(text, commented))
 			fail_msg("config/latticed.conf lacks the line '%s = %s'", k->key, k->default_text);
 		if (!strstr(text, documented))
 			fail_msg("config/latticed.conf does not explain '%s' (a comment '; %s: ...')",
@@ -173,7 +175,7 @@ static void errors_name_the_line(void **state)
 {
 	(void)state;
 	expect_error("[lattice]\nseeds = 1 3 5 7\n[tuning]\nx = 1\n",
-		     "t.conf:3: unknown section [tuning], expected [lattice], [pitch], [keys], [input], [control], [output NAME] or [preset NAME]");
+		     "t.conf:3: unknown section [tuning], expected [lattice], [pitch], [keys], [input], [control], [daemon], [output NAME] or [preset NAME]");
 	expect_error("[lattice]\nseed = 1 3 5 7\n", "t.conf:2: unknown key 'seed' in [lattice], expected one of: seeds, choose, period, unison");
 	expect_error("[lattice]\n\nchoose = two\n", "t.conf:3: choose is 'two', expected a whole number");
 	expect_error("[pitch]\nroot_key = 128\n", "t.conf:2: root_key is '128', expected a key number from 0 to 127");
@@ -396,6 +398,67 @@ static void mts_needs_a_channel_per_input(void **state)
 	assert_true(parse("[input]\nchannels = 1-6\n[output tuned]\nmethod = mts\nchannels = 11-16\n"));
 }
 
+static void daemon_and_connect_keys(void **state)
+{
+	(void)state;
+	/* the defaults of [daemon] and the connect keys */
+	config_defaults(&cfg);
+	assert_string_equal(cfg.daemon.backend, "auto");
+	assert_string_equal(cfg.daemon.client_name, "latticed");
+	assert_int_equal(cfg.daemon.realtime_priority, 40);
+	assert_true(cfg.daemon.lock_memory);
+	assert_string_equal(cfg.daemon.control_socket, "auto");
+	assert_int_equal(cfg.input.connect.count, 0);
+	assert_int_equal(cfg.outputs[0].connect.count, 0);
+
+	assert_true(parse("[daemon]\nbackend = raw\nclient_name = Stage Left\nrealtime_priority = none\n"
+			  "lock_memory = no\ncontrol_socket = /tmp/l/control\n"
+			  "[input]\nconnect = USB Keys* ,  24:0,/tmp/in.fifo\n"
+			  "[output fs]\nconnect = FLUID Synth*\n[output b]\n"));
+	assert_string_equal(cfg.daemon.backend, "raw");
+	assert_string_equal(cfg.daemon.client_name, "Stage Left");
+	assert_int_equal(cfg.daemon.realtime_priority, -1);
+	assert_false(cfg.daemon.lock_memory);
+	assert_string_equal(cfg.daemon.control_socket, "/tmp/l/control");
+	assert_int_equal(cfg.input.connect.count, 3);
+	assert_string_equal(cfg.input.connect.patterns[0], "USB Keys*");
+	assert_string_equal(cfg.input.connect.patterns[1], "24:0");
+	assert_string_equal(cfg.input.connect.patterns[2], "/tmp/in.fifo");
+	assert_int_equal(cfg.outputs[0].connect.count, 1);
+	assert_string_equal(cfg.outputs[0].connect.patterns[0], "FLUID Synth*");
+	assert_int_equal(cfg.outputs[1].connect.count, 0);
+
+	/* what the backend is given: port "in", one port per output, in order */
+	struct midi_io_spec io;
+	config_io_spec(&cfg, &io);
+	assert_string_equal(io.client_name, "Stage Left");
+	assert_string_equal(io.input.name, "in");
+	assert_int_equal(io.input.connect_count, 3);
+	assert_string_equal(io.input.connect[1], "24:0");
+	assert_int_equal(io.output_count, 2);
+	assert_string_equal(io.outputs[0].name, "fs");
+	assert_string_equal(io.outputs[0].connect[0], "FLUID Synth*");
+	assert_string_equal(io.outputs[1].name, "b");
+	assert_int_equal(io.outputs[1].connect_count, 0);
+
+	assert_true(parse("[daemon]\nrealtime_priority = 99\ncontrol_socket = none\n"));
+	assert_int_equal(cfg.daemon.realtime_priority, 99);
+	assert_string_equal(cfg.daemon.control_socket, "none");
+
+	expect_error("[daemon]\nbackend = jack\n", "t.conf:2: backend is 'jack', expected auto (alsa if built, else portmidi, else null), alsa, portmidi, raw or null");
+	expect_error("[daemon]\nrealtime_priority = 0\n", "t.conf:2: realtime_priority is '0', expected none, or a SCHED_FIFO priority from 1 to 99");
+	expect_error("[daemon]\nrealtime_priority = 100\n", "t.conf:2: realtime_priority is '100'");
+	expect_error("[daemon]\nlock_memory = sometimes\n", "t.conf:2: lock_memory is 'sometimes', expected yes or no");
+	expect_error("[daemon]\nclient_name = a:b\n", "t.conf:2: client_name is 'a:b', expected 1 to 63 characters without ':'");
+	expect_error("[daemon]\ncontrol_socket = run/control\n", "t.conf:2: control_socket is 'run/control', expected auto, none, or an absolute path");
+	expect_error("[daemon]\nport = 1\n", "t.conf:2: unknown key 'port' in [daemon], expected one of: backend, client_name, realtime_priority, lock_memory, control_socket");
+	expect_error("[input]\nconnect = a,,b\n", "t.conf:2: connect has an empty pattern");
+	expect_error("[input]\nconnect = a,b,c,d,e,f,g,h,i\n", "t.conf:2: connect has more than 8 patterns, expected at most 8");
+	expect_error("[output s]\nconnect = 0123456789012345678901234567890123456789012345678901234567890123\n",
+		     "t.conf:2: connect pattern '0123456789012345678901234567890123456789012345678901234567890123' is 64 characters long, expected at most 63");
+	expect_error("[output in]\n", "t.conf:1: an output may not be called 'in'");
+}
+
 static void unreadable_file(void **state)
 {
 	(void)state;
@@ -422,6 +485,7 @@ int main(void)
 		cmocka_unit_test(presets_inherit_the_main_tuning),
 		cmocka_unit_test(input_output_control_keys),
 		cmocka_unit_test(mts_needs_a_channel_per_input),
+		cmocka_unit_test(daemon_and_connect_keys),
 		cmocka_unit_test(unreadable_file),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);

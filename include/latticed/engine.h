@@ -177,6 +177,8 @@ struct engine_in_channel {
 	uint16_t bend;                   /* raw wheel / per-note bend, 8192 centre */
 	double range_cents;              /* what its full bend means */
 	bool sustain, sostenuto;
+	uint8_t sustain_source;          /* the device that put each pedal down */
+	uint8_t sostenuto_source;
 	uint8_t param_msb, param_lsb;    /* current RPN/NRPN selection */
 	bool param_is_nrpn;
 	uint8_t data_msb, data_lsb;

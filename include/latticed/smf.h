@@ -179,6 +179,9 @@ bool smf_writer_escape(struct smf_writer *w, uint32_t tick, const uint8_t *bytes
 /* Any meta event but end-of-track (smf_writer_track_end writes that). */
 bool smf_writer_meta(struct smf_writer *w, uint32_t tick, uint8_t type, const uint8_t *data,
 		     uint32_t length);
+/* False when a meta event of this type must have another length (SMF 1.0:
+ * tempo 3, time signature 4, ...); *expected is then that length. */
+bool smf_meta_length_ok(uint8_t type, uint32_t length, uint32_t *expected);
 bool smf_writer_tempo(struct smf_writer *w, uint32_t tick, uint32_t usec_per_quarter);
 /* Writes an event as read by smf_read (not an end-of-track). */
 bool smf_writer_event(struct smf_writer *w, const struct smf_event *ev);

@@ -478,47 +478,72 @@ static void release_note(struct engine *e, int index, uint8_t velocity)
 	end_note(e, index);
 }
 
-/* Brings an output channel up to what the player has set, before a note. */
+/* What a controller is when nobody has set it: the reset values of
+ * General MIDI receivers (volume 100, pan and balance centred, expression
+ * full, everything else 0; common practice, GM / RP-015). */
+static uint8_t cc_default(int cc)
+{
+	switch (cc) {
+	case 7:
+		return 100;
+	case 8:
+	case 10:
+		return 64;
+	case 11:
+		return 127;
+	default:
+		return 0;
+	}
+}
+
+/*
+ * Brings an output channel up to what the notes of input channel in_ch
+ * should hear, just before one starts.  A channel may have served another
+ * input channel before (or been stolen): whatever it was told then and the
+ * new owner never set goes back to its default, so no pedal or controller
+ * of the previous owner lingers.
+ */
 static void sync_channel(struct engine *e, int ch, int in_ch)
 {
 	const struct engine_in_channel *g = &e->in[global_of(e, in_ch)];
+	const struct engine_in_channel *m = is_mpe_member(e, in_ch) ? &e->in[in_ch] : NULL;
+	struct engine_out_channel *o = &e->out[ch];
 	bool mpe_out = e->spec.output.method == RETUNE_MPE;
-	if (!mpe_out) {
+	/* MPE output: the global state lives on the master channel */
+	const struct engine_in_channel *global = mpe_out ? NULL : g;
+
+	if (global) {
 		/* bank select before the program change that applies it */
 		bool bank_changed = false;
 		for (int cc = 0; cc <= 32; cc += 32) {
-			if (bit_get(g->cc_set, cc) &&
-			    !(bit_get(e->out[ch].cc_known, cc) && e->out[ch].cc[cc] == g->cc[cc])) {
-				send_cc(e, ch, cc, g->cc[cc], false);
+			if (bit_get(global->cc_set, cc) &&
+			    !(bit_get(o->cc_known, cc) && o->cc[cc] == global->cc[cc])) {
+				send_cc(e, ch, cc, global->cc[cc], false);
 				bank_changed = true;
 			}
 		}
-		if (g->program_set) {
+		if (global->program_set) {
 			if (bank_changed)
-				e->out[ch].program_known = false;
-			send_program(e, ch, g->program);
+				o->program_known = false;
+			send_program(e, ch, global->program);
 		}
-		for (int cc = 1; cc < 120; cc++)
-			if (cc != 32 && bit_get(g->cc_set, cc) && !is_parameter_cc(cc))
-				send_cc(e, ch, cc, g->cc[cc], false);
-		/* A pedal that another input channel left down here (its notes
-		 * were stolen) would hold these notes for ever: the pedals always
-		 * follow the player of the notes on the channel. */
-		for (int cc = 64; cc <= 66; cc += 2)
-			if (!bit_get(g->cc_set, cc) && bit_get(e->out[ch].cc_known, cc) &&
-			    e->out[ch].cc[cc] >= 64)
-				send_cc(e, ch, cc, 0, false);
-		if (g->pressure_set)
-			send_pressure(e, ch, g->pressure);
 	}
-	if (is_mpe_member(e, in_ch)) {
-		const struct engine_in_channel *m = &e->in[in_ch];
-		for (int cc = 0; cc < 120; cc++)
-			if (bit_get(m->cc_set, cc) && !is_parameter_cc(cc))
-				send_cc(e, ch, cc, m->cc[cc], false);
-		if (m->pressure_set)
-			send_pressure(e, ch, m->pressure);
+	for (int cc = 1; cc < 120; cc++) {
+		if (cc == 32 || is_parameter_cc(cc))
+			continue;
+		if (m && bit_get(m->cc_set, cc))
+			send_cc(e, ch, cc, m->cc[cc], false);
+		else if (global && bit_get(global->cc_set, cc))
+			send_cc(e, ch, cc, global->cc[cc], false);
+		else if (bit_get(o->cc_known, cc))
+			send_cc(e, ch, cc, cc_default(cc), false);
 	}
+	if (m && m->pressure_set)
+		send_pressure(e, ch, m->pressure);
+	else if (global && global->pressure_set)
+		send_pressure(e, ch, global->pressure);
+	else if (o->pressure_known)
+		send_pressure(e, ch, 0);
 }
 
 static int pick_free_channel(const struct engine *e, uint16_t want)
@@ -880,23 +905,6 @@ static void master_bend(struct engine *e, int ch)
 		  bend_for(e, in_bend_cents(&e->in[ch]), master_range(e)));
 }
 
-/* Whether the player's all-sound-off on input channel ch goes to output
- * channel out_ch.  It acts on one channel's notes (MIDI 1.0), so not where
- * another input channel's notes sound or ring out, and on the MPE master
- * (which speaks for the whole zone) only while no other input channel's
- * notes sound there. */
-static bool silence_reaches(const struct engine *e, int out_ch, int ch)
-{
-	int g = global_of(e, ch);
-	if (e->out[out_ch].in_pool)
-		return global_of(e, e->out[out_ch].source_channel) == g;
-	for (int c = 0; c < 16; c++)
-		if (e->out[c].in_pool && e->out[c].note_count > 0 &&
-		    global_of(e, e->out[c].source_channel) != g)
-			return false;
-	return true;
-}
-
 static void mode_cc(struct engine *e, int ch, int cc)
 {
 	struct engine_in_channel *c = &e->in[ch];
@@ -953,14 +961,19 @@ static void mode_cc(struct engine *e, int ch, int cc)
 			release_note(e, i, 64);
 		}
 		if (cc == 120) {
-			for (int out_ch = 0; out_ch < 16; out_ch++)
-				if (output_uses(e, out_ch) && silence_reaches(e, out_ch, ch))
-					send_cc(e, out_ch, 120, 0, true);
+			/* silence this channel's notes, not another input channel's */
+			for (int out_ch = 0; out_ch < 16; out_ch++) {
+				const struct engine_out_channel *o = &e->out[out_ch];
+				if (!output_uses(e, out_ch) ||
+				    (o->note_count > 0 && global_of(e, o->source_channel) != global_of(e, ch)))
+					continue;
+				send_cc(e, out_ch, 120, 0, true);
+			}
 		}
 	}
 }
 
-static void control_change(struct engine *e, int ch, int cc, int value)
+static void control_change(struct engine *e, uint8_t source, int ch, int cc, int value)
 {
 	/* pedals hold the whole zone of an MPE controller, wherever they arrive */
 	if ((cc == 64 || cc == 66) && is_mpe_member(e, ch))
@@ -987,7 +1000,9 @@ static void control_change(struct engine *e, int ch, int cc, int value)
 		bool down = value >= 64;
 		if (cc == 64) {
 			e->in[g].sustain = down;
+			e->in[g].sustain_source = source;
 		} else {
+			e->in[g].sostenuto_source = source;
 			if (down && !e->in[g].sostenuto) {
 				/* sostenuto holds the notes that are down right now */
 				for (int i = 0; i < ENGINE_MAX_NOTES; i++) {
@@ -1076,7 +1091,7 @@ static void channel_message(struct engine *e, uint8_t source, const struct midi_
 		poly_pressure(e, source, ch, m->data[0], m->data[1]);
 		break;
 	case MIDI_CONTROL:
-		control_change(e, ch, m->data[0], m->data[1]);
+		control_change(e, source, ch, m->data[0], m->data[1]);
 		break;
 	case MIDI_PROGRAM:
 		e->in[ch].program = m->data[0];
@@ -1128,6 +1143,15 @@ void engine_end_source(struct engine *e, uint8_t source)
 		struct engine_note *n = &e->notes[i];
 		if (n->phase == NOTE_DOWN && n->source == source)
 			release_note(e, i, 64);
+	}
+	/* a pedal held down by the device that went away is let go, as if its
+	 * foot came off: otherwise the synth would sustain forever */
+	for (int ch = 0; ch < 16; ch++) {
+		struct engine_in_channel *c = &e->in[ch];
+		if (c->sustain && c->sustain_source == source)
+			control_change(e, source, ch, 64, 0);
+		if (c->sostenuto && c->sostenuto_source == source)
+			control_change(e, source, ch, 66, 0);
 	}
 }
 

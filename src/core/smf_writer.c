@@ -197,8 +197,7 @@ bool smf_writer_escape(struct smf_writer *w, uint32_t tick, const uint8_t *bytes
 	return put_packet(w, tick, MIDI_SYSEX_END, -1, bytes, length);
 }
 
-/* Lengths fixed by the SMF text for the meta events that have one. */
-static bool meta_length_ok(uint8_t type, uint32_t length, uint32_t *expected)
+bool smf_meta_length_ok(uint8_t type, uint32_t length, uint32_t *expected)
 {
 	switch (type) {
 	case SMF_META_SEQUENCE_NUMBER:
@@ -237,7 +236,7 @@ bool smf_writer_meta(struct smf_writer *w, uint32_t tick, uint8_t type, const ui
 		return fail(w, "track %u, tick %u: meta type %02X, expected 00..7F", w->track_count,
 			    tick, type);
 	uint32_t expected = 0;
-	if (!meta_length_ok(type, length, &expected))
+	if (!smf_meta_length_ok(type, length, &expected))
 		return fail(w, "track %u, tick %u: meta %02X has %u data bytes, expected %u",
 			    w->track_count, tick, type, length, expected);
 	return put_packet(w, tick, 0xFF, type, data, length);

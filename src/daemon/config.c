@@ -26,6 +26,11 @@
 #include <string.h>
 
 #include "latticed/ratio.h"
+#include "midi_io.h"
+
+_Static_assert(CONFIG_MAX_PATTERNS == MIDI_IO_MAX_PATTERNS, "connect lists fill midi_io specs");
+_Static_assert(CONFIG_PATTERN_MAX == MIDI_IO_NAME_MAX, "patterns fill midi_io specs");
+_Static_assert(CONFIG_MAX_OUTPUTS == MIDI_IO_MAX_OUTPUTS, "one port per output");
 
 #define CONFIG_FILE_MAX (1 << 20)
 #define ENTRY_VALUE_MAX 4096
@@ -41,6 +46,8 @@ enum key_kind {
 	K_MTS_KEY, K_MPE_ZONE, K_MPE_MEMBERS, K_RUNNING_STATUS,
 	K_CTL_CHANNEL, K_CTL_PROGRAM, K_CTL_PRESET_CC, K_CTL_ROOT_CC,
 	K_CTL_PRESET_KEYS, K_CTL_ROOT_KEYS,
+	K_IN_CONNECT, K_OUT_CONNECT,
+	K_BACKEND, K_CLIENT_NAME, K_RT_PRIORITY, K_LOCK_MEMORY, K_CONTROL_SOCKET,
 };
 
 struct key_def {
@@ -77,6 +84,8 @@ static const struct key_def key_table[] = {
 	  "no, lower (master channel 1) or upper (master channel 16)"}, K_IN_MPE},
 	{{"input", "mpe_bend_range", "48",
 	  "whole semitones from 1 to 96"}, K_IN_MPE_BEND_RANGE},
+	{{"input", "connect", "none",
+	  "none, or up to 8 port name patterns separated by commas, each at most 63 characters, e.g. USB Keys*, 24:0"}, K_IN_CONNECT},
 	{{"output", "method", "bend",
 	  "bend, mts or mpe"}, K_METHOD},
 	{{"output", "channels", "2-16",
@@ -105,6 +114,8 @@ static const struct key_def key_table[] = {
 	  "member channels from 1 to 15"}, K_MPE_MEMBERS},
 	{{"output", "running_status", "no",
 	  "yes or no"}, K_RUNNING_STATUS},
+	{{"output", "connect", "none",
+	  "none, or up to 8 port name patterns separated by commas, each at most 63 characters, e.g. FLUID Synth*"}, K_OUT_CONNECT},
 	{{"control", "channel", "none",
 	  "none, or a MIDI channel from 1 to 16 that is not retuned"}, K_CTL_CHANNEL},
 	{{"control", "program_change", "preset",
@@ -117,6 +128,16 @@ static const struct key_def key_table[] = {
 	  "none, or the first of the keys that pick presets, 0 to 127"}, K_CTL_PRESET_KEYS},
 	{{"control", "root_keys", "none",
 	  "none, or the first of the keys that move the 1/1, 0 to 127"}, K_CTL_ROOT_KEYS},
+	{{"daemon", "backend", "auto",
+	  "auto (alsa if built, else portmidi, else null), alsa, portmidi, raw or null"}, K_BACKEND},
+	{{"daemon", "client_name", "latticed",
+	  "1 to 63 characters without ':' or control characters"}, K_CLIENT_NAME},
+	{{"daemon", "realtime_priority", "40",
+	  "none, or a SCHED_FIFO priority from 1 to 99"}, K_RT_PRIORITY},
+	{{"daemon", "lock_memory", "yes",
+	  "yes or no"}, K_LOCK_MEMORY},
+	{{"daemon", "control_socket", "auto",
+	  "auto, none, or an absolute path of at most 107 characters"}, K_CONTROL_SOCKET},
 };
 #define KEY_COUNT ((int)(sizeof key_table / sizeof key_table[0]))
 
@@ -227,7 +248,7 @@ static bool section_has_prefix(const char *name, const char *prefix)
 
 static bool section_is_known(const char *name)
 {
-	static const char *const plain[] = {"lattice", "pitch", "keys", "input", "control"};
+	static const char *const plain[] = {"lattice", "pitch", "keys", "input", "control", "daemon"};
 	for (size_t i = 0; i < sizeof plain / sizeof plain[0]; i++)
 		if (strcmp(name, plain[i]) == 0)
 			return true;
@@ -286,7 +307,7 @@ static void inspect_section_line(struct collector *c, const char *line)
 	c->section_known = section_is_known(name);
 	if (!c->section_known) {
 		report_add(c->report, true, c->path, c->line,
-			   "unknown section [%s], expected [lattice], [pitch], [keys], [input], [control], [output NAME] or [preset NAME]",
+			   "unknown section [%s], expected [lattice], [pitch], [keys], [input], [control], [daemon], [output NAME] or [preset NAME]",
 			   name);
 		c->errors++;
 		return;
@@ -550,6 +571,51 @@ static bool parse_factor(const char *v, double lo, double hi, double *out)
 	return parse_real(v, lo, hi, out);
 }
 
+/* "none" or patterns separated by commas; why says what is wrong. */
+static bool parse_connect(const char *v, struct connect_list *out, char *why, size_t why_size)
+{
+	struct connect_list list;
+	memset(&list, 0, sizeof list);
+	if (strcmp(v, "none") == 0) {
+		*out = list;
+		return true;
+	}
+	const char *p = v;
+	for (;;) {
+		const char *comma = strchr(p, ',');
+		size_t len = comma ? (size_t)(comma - p) : strlen(p);
+		while (len > 0 && (*p == ' ' || *p == '\t')) {
+			p++;
+			len--;
+		}
+		while (len > 0 && (p[len - 1] == ' ' || p[len - 1] == '\t'))
+			len--;
+		if (len == 0) {
+			snprintf(why, why_size, "connect has an empty pattern, expected %s",
+				 "none, or patterns separated by commas");
+			return false;
+		}
+		if (len >= CONFIG_PATTERN_MAX) {
+			snprintf(why, why_size, "connect pattern '%.*s' is %zu characters long, expected at most %d",
+				 (int)len, p, len, CONFIG_PATTERN_MAX - 1);
+			return false;
+		}
+		if (list.count >= CONFIG_MAX_PATTERNS) {
+			snprintf(why, why_size, "connect has more than %d patterns, expected at most %d",
+				 CONFIG_MAX_PATTERNS, CONFIG_MAX_PATTERNS);
+			return false;
+		}
+		memcpy(list.patterns[list.count], p, len);
+		list.patterns[list.count][len] = '\0';
+		list.count++;
+		if (!comma)
+			break;
+		p = comma + 1;
+	}
+	*out = list;
+	return true;
+}
+
 static bool parse_zone(const char *v, enum mpe_zone *out)
 {
 	if (!strcmp(v, "lower"))
@@ -569,6 +635,7 @@ static void apply(struct interp *in, const struct key_def *def,
 	struct output_config *out = to.output;
 	struct input_config *input = &in->cfg->input;
 	struct control_config *control = &in->cfg->control;
+	struct daemon_config *daemon = &in->cfg->daemon;
 	const char *v = e->value;
 	const char *key = def->info.key;
 	long n;
@@ -759,6 +826,38 @@ static void apply(struct interp *in, const struct key_def *def,
 	case K_CTL_ROOT_KEYS:
 		ok = parse_optional_int(v, 0, 127, &control->root_keys);
 		break;
+	case K_IN_CONNECT:
+	case K_OUT_CONNECT: {
+		char why[CORE_ERROR_TEXT_MAX];
+		struct connect_list *list = def->kind == K_IN_CONNECT ? &input->connect : &out->connect;
+		if (!parse_connect(v, list, why, sizeof why))
+			fail(in, e->line, "%s", why);
+		return;
+	}
+	case K_BACKEND:
+		if ((ok = !strcmp(v, "auto") || !strcmp(v, "alsa") || !strcmp(v, "portmidi") ||
+			  !strcmp(v, "raw") || !strcmp(v, "null")))
+			copy_text(daemon->backend, sizeof daemon->backend, v);
+		break;
+	case K_CLIENT_NAME:
+		ok = v[0] != '\0' && strlen(v) < sizeof daemon->client_name;
+		for (const char *p = v; ok && *p; p++)
+			ok = *p != ':' && (unsigned char)*p >= 0x20 && *p != 0x7F;
+		if (ok)
+			copy_text(daemon->client_name, sizeof daemon->client_name, v);
+		break;
+	case K_RT_PRIORITY:
+		ok = parse_optional_int(v, 1, 99, &daemon->realtime_priority);
+		break;
+	case K_LOCK_MEMORY:
+		ok = parse_bool(v, &daemon->lock_memory);
+		break;
+	case K_CONTROL_SOCKET:
+		/* sun_path holds 108 bytes on Linux, terminator included (unix(7)) */
+		if ((ok = !strcmp(v, "auto") || !strcmp(v, "none") ||
+			  (v[0] == '/' && strlen(v) <= 107)))
+			copy_text(daemon->control_socket, sizeof daemon->control_socket, v);
+		break;
 	}
 	if (!ok)
 		fail(in, e->line, "%s is '%s', expected %s", key, v, def->info.expected);
@@ -802,6 +901,7 @@ void config_defaults(struct config *out)
 	apply_default(&in, "preset", (struct target){.tuning = &out->presets[0]});
 	apply_default(&in, "input", (struct target){0});
 	apply_default(&in, "control", (struct target){0});
+	apply_default(&in, "daemon", (struct target){0});
 	out->output_count = 1;
 	output_defaults(&in, &out->outputs[0]);
 	copy_text(out->outputs[0].name, sizeof out->outputs[0].name, "synth");
@@ -991,6 +1091,8 @@ static void cross_check(struct interp *in)
 	int inputs = __builtin_popcount(input->channels);
 	for (int i = 0; i < cfg->output_count; i++) {
 		struct output_config *o = &cfg->outputs[i];
+		if (strcmp(o->name, "in") == 0)
+			fail(in, o->line, "an output may not be called 'in', the name of latticed's input port; expected another name");
 		if (!o->bend_range_set)
 			o->bend_range = o->method == RETUNE_MPE ? 48 : 2;
 		int outputs = __builtin_popcount(o->channels);
@@ -1295,6 +1397,26 @@ void config_engine_spec(const struct config *cfg, int output, struct engine_spec
 int output_bend_range(const struct output_config *out)
 {
 	return out->bend_range;
+}
+
+static void port_spec(struct midi_io_port_spec *port, const char *name,
+		      const struct connect_list *connect)
+{
+	memset(port, 0, sizeof *port);
+	copy_text(port->name, sizeof port->name, name);
+	port->connect_count = connect->count;
+	for (int i = 0; i < connect->count; i++)
+		copy_text(port->connect[i], sizeof port->connect[i], connect->patterns[i]);
+}
+
+void config_io_spec(const struct config *cfg, struct midi_io_spec *out)
+{
+	memset(out, 0, sizeof *out);
+	copy_text(out->client_name, sizeof out->client_name, cfg->daemon.client_name);
+	port_spec(&out->input, "in", &cfg->input.connect);
+	out->output_count = cfg->output_count;
+	for (int i = 0; i < cfg->output_count; i++)
+		port_spec(&out->outputs[i], cfg->outputs[i].name, &cfg->outputs[i].connect);
 }
 
 int config_find_output(const struct config *cfg, const char *name)

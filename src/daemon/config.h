@@ -32,6 +32,15 @@
 #define CONFIG_PATH_MAX 512
 #define CONFIG_MAP_TEXT_MAX 2048
 #define CONFIG_REPORT_MAX 8192
+#define CONFIG_MAX_PATTERNS 8      /* = MIDI_IO_MAX_PATTERNS */
+#define CONFIG_PATTERN_MAX 64      /* = MIDI_IO_NAME_MAX, terminator included */
+#define CONFIG_BACKEND_MAX 16
+
+/* A connect = list: port name patterns (or paths, for the raw backend). */
+struct connect_list {
+	int count;
+	char patterns[CONFIG_MAX_PATTERNS][CONFIG_PATTERN_MAX];
+};
 
 struct output_config {
 	char name[CONFIG_NAME_MAX];
@@ -49,6 +58,7 @@ struct output_config {
 	int mpe_members;
 	bool running_status;       /* leave out repeated status bytes (DIN links) */
 	bool bend_range_set;       /* else the method's default: 2, or 48 for mpe */
+	struct connect_list connect;
 };
 
 struct input_config {
@@ -57,6 +67,16 @@ struct input_config {
 	enum mpe_zone mpe_zone;
 	bool mpe;
 	int mpe_bend_range;
+	struct connect_list connect;
+};
+
+/* [daemon]: how `latticed run` meets the system. */
+struct daemon_config {
+	char backend[CONFIG_BACKEND_MAX]; /* auto, alsa, portmidi, raw or null */
+	char client_name[CONFIG_PATTERN_MAX];
+	int realtime_priority;     /* 1..99, or -1: none */
+	bool lock_memory;
+	char control_socket[CONFIG_PATH_MAX]; /* "auto", "none" or a path */
 };
 
 struct control_config {
@@ -89,6 +109,7 @@ struct config {
 	struct tuning_config presets[CONFIG_MAX_PRESETS];
 	struct input_config input;
 	struct control_config control;
+	struct daemon_config daemon;
 	int output_count;
 	struct output_config outputs[CONFIG_MAX_OUTPUTS];
 };
@@ -144,6 +165,11 @@ void tuning_set_free(struct tuning_set *set);
 /* The engine's view of output number `output`. */
 void config_engine_spec(const struct config *cfg, int output, struct engine_spec *out);
 
+/* The backend's view: client name, the input port "in" and one output
+ * port per [output NAME], each with its connect patterns. */
+struct midi_io_spec;
+void config_io_spec(const struct config *cfg, struct midi_io_spec *out);
+
 /* Index of the output or preset with this name, or -1. */
 int config_find_output(const struct config *cfg, const char *name);
 int config_find_preset(const struct config *cfg, const char *name);
@@ -156,7 +182,7 @@ char *config_format_channels(uint16_t channels, char *buf, size_t size);
 
 /* One row per key of the table, for documentation and tests. */
 struct config_key_info {
-	const char *section;       /* "lattice", "pitch", "keys", "input", "output", "control" */
+	const char *section;       /* "lattice", "pitch", "keys", "input", "output", "control", "daemon" */
 	const char *key;
 	const char *default_text;
 	const char *expected;      /* what a valid value looks like */

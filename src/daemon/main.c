@@ -13,6 +13,10 @@
 #include <unistd.h>
 
 #include "config.h"
+#include "render_cmd.h"
+#include "control_cmd.h"
+#include "daemon.h"
+#include "midi_io.h"
 #include "table_cmd.h"
 
 #define EXIT_USAGE 2
@@ -140,6 +144,199 @@ static int command_table(int argc, char **argv)
 	return rc;
 }
 
+static void render_usage(FILE *f)
+{
+	fprintf(f,
+		"Usage: latticed render [--config FILE] [--output NAME] [--verbose] IN.mid OUT.mid\n"
+		"Retune a Standard MIDI File for one output; '-' is standard input or output.\n"
+		"\n"
+		"  -c, --config FILE  read FILE instead of %s\n"
+		"  -o, --output NAME  retune for the [output NAME] section (default: the first)\n"
+		"  -v, --verbose      print a summary (events, notes, steals) on stderr\n"
+		"  -h, --help         show this help\n",
+		default_config_path);
+}
+
+/* "NAME has no output 'x'; its outputs: 'synth', 'mpe'" on one line */
+static void no_such_output(const struct config *cfg, const char *name)
+{
+	fprintf(stderr, "latticed render: %s has no output '%s'; its output%s:", cfg->path, name,
+		cfg->output_count == 1 ? "" : "s");
+	for (int i = 0; i < cfg->output_count; i++)
+		fprintf(stderr, "%s '%s'", i ? "," : "", cfg->outputs[i].name);
+	fputc('\n', stderr);
+}
+
+static int command_render(int argc, char **argv)
+{
+	static const struct option options[] = {
+		{"config", required_argument, NULL, 'c'},
+		{"output", required_argument, NULL, 'o'},
+		{"verbose", no_argument, NULL, 'v'},
+		{"help", no_argument, NULL, 'h'},
+		{NULL, 0, NULL, 0},
+	};
+	const char *config_path = NULL, *output_name = NULL;
+	bool verbose = false;
+	int opt;
+	while ((opt = getopt_long(argc, argv, "c:o:vh", options, NULL)) != -1) {
+		switch (opt) {
+		case 'c':
+			config_path = optarg;
+			break;
+		case 'o':
+			output_name = optarg;
+			break;
+		case 'v':
+			verbose = true;
+			break;
+		case 'h':
+			render_usage(stdout);
+			return 0;
+		default:
+			fprintf(stderr, "Try 'latticed render --help'.\n");
+			return EXIT_USAGE;
+		}
+	}
+	if (argc - optind < 2) {
+		fprintf(stderr, "latticed render: expected IN.mid and OUT.mid ('-' for standard input or output)\n"
+			"Try 'latticed render --help'.\n");
+		return EXIT_USAGE;
+	}
+	if (argc - optind > 2) {
+		fprintf(stderr, "latticed render: unexpected argument '%s'\nTry 'latticed render --help'.\n",
+			argv[optind + 2]);
+		return EXIT_USAGE;
+	}
+
+	struct config *cfg = malloc(sizeof *cfg);
+	struct tuning_set tunings = {0};
+	bool built = false;
+	int rc = cfg ? load_config(config_path, cfg) : 1;
+	int output = 0;
+	if (rc == 0 && output_name) {
+		output = config_find_output(cfg, output_name);
+		if (output < 0) {
+			no_such_output(cfg, output_name);
+			rc = 1;
+		}
+	}
+	if (rc == 0) {
+		struct config_report report = {0};
+		built = config_build_tunings(cfg, &tunings, &report);
+		print_report(&report);
+		rc = built ? 0 : 1;
+	}
+	if (rc == 0) {
+		struct render_request req = {
+			.cfg = cfg,
+			.output = output,
+			.tunings = &tunings.engine,
+			.in_path = argv[optind],
+			.out_path = argv[optind + 1],
+			.verbose = verbose,
+		};
+		rc = render_run(&req);
+	}
+	if (built)
+		tuning_set_free(&tunings);
+	free(cfg);
+	return rc;
+}
+
+static void run_usage(FILE *f, const char *name)
+{
+	bool run = strcmp(name, "run") == 0;
+	fprintf(f,
+		"Usage: latticed %s [--config FILE] [--backend NAME]\n%s\n\n"
+		"  -c, --config FILE   read FILE instead of %s\n"
+		"  -b, --backend NAME  one of: %s (default: the config's backend)\n"
+		"  -h, --help          show this help\n",
+		name,
+		run ? "Run the retuning daemon in the foreground; logs go to stderr.\n"
+		      "Stop it with Ctrl-C (SIGINT) or SIGTERM; SIGHUP reloads the config."
+		    : "List the MIDI ports latticed can connect to (no daemon needed).",
+		default_config_path, midi_io_available());
+}
+
+/* `latticed run` and `latticed ports` share their options. */
+static int daemon_command(int argc, char **argv, const char *name)
+{
+	static const struct option options[] = {
+		{"config", required_argument, NULL, 'c'},
+		{"backend", required_argument, NULL, 'b'},
+		{"help", no_argument, NULL, 'h'},
+		{NULL, 0, NULL, 0},
+	};
+	struct daemon_options o = {
+		.default_config_path = default_config_path,
+		.version = LATTICED_VERSION,
+	};
+	int opt;
+	while ((opt = getopt_long(argc, argv, "c:b:h", options, NULL)) != -1) {
+		switch (opt) {
+		case 'c':
+			o.config_path = optarg;
+			break;
+		case 'b':
+			o.backend = optarg;
+			break;
+		case 'h':
+			run_usage(stdout, name);
+			return 0;
+		default:
+			fprintf(stderr, "Try 'latticed %s --help'.\n", name);
+			return EXIT_USAGE;
+		}
+	}
+	if (optind < argc) {
+		fprintf(stderr, "latticed %s: unexpected argument '%s'\nTry 'latticed %s --help'.\n",
+			name, argv[optind], name);
+		return EXIT_USAGE;
+	}
+	if (o.backend && strcmp(o.backend, "auto") != 0 && !midi_io_find(o.backend)) {
+		fprintf(stderr, "latticed %s: backend '%s' is not in this build, expected one of: %s\n",
+			name, o.backend, midi_io_available());
+		return EXIT_USAGE;
+	}
+	return strcmp(name, "run") == 0 ? daemon_run(&o) : daemon_list_ports(&o);
+}
+
+static int command_run(int argc, char **argv)
+{
+	return daemon_command(argc, argv, "run");
+}
+
+static int command_ports(int argc, char **argv)
+{
+	return daemon_command(argc, argv, "ports");
+}
+
+static int command_status(int argc, char **argv)
+{
+	return control_cmd_run("status", argc, argv, default_config_path);
+}
+
+static int command_panic(int argc, char **argv)
+{
+	return control_cmd_run("panic", argc, argv, default_config_path);
+}
+
+static int command_preset(int argc, char **argv)
+{
+	return control_cmd_run("preset", argc, argv, default_config_path);
+}
+
+static int command_root(int argc, char **argv)
+{
+	return control_cmd_run("root", argc, argv, default_config_path);
+}
+
+static int command_reload(int argc, char **argv)
+{
+	return control_cmd_run("reload", argc, argv, default_config_path);
+}
+
 struct command {
 	const char *name;
 	int (*run)(int argc, char **argv);
@@ -147,7 +344,15 @@ struct command {
 };
 
 static const struct command commands[] = {
+	{"run", command_run, "run the retuning daemon in the foreground (Ctrl-C stops it)"},
+	{"status", command_status, "show what the running daemon is doing"},
+	{"panic", command_panic, "end every note on every output now"},
+	{"preset", command_preset, "switch the running daemon to preset NAME for new notes"},
+	{"root", command_root, "move the 1/1 of the running daemon: 0 home, n = tone n-1"},
+	{"reload", command_reload, "make the running daemon read its config again"},
+	{"ports", command_ports, "list the MIDI ports latticed can connect to"},
 	{"table", command_table, "print the lattice, its chords and the key map"},
+	{"render", command_render, "retune a MIDI file"},
 };
 #define COMMAND_COUNT ((int)(sizeof commands / sizeof commands[0]))
 
@@ -179,7 +384,7 @@ int main(int argc, char **argv)
 		return 0;
 	}
 	if (strcmp(name, "-V") == 0 || strcmp(name, "--version") == 0) {
-		printf("latticed %s\n", LATTICED_VERSION);
+		printf("latticed %s (backends: %s)\n", LATTICED_VERSION, midi_io_available());
 		return 0;
 	}
 	for (int i = 0; i < COMMAND_COUNT; i++) {

@@ -8,15 +8,20 @@
  *     matches the configured name patterns.  It fails with one line saying
  *     what is missing and how to fix it.
  *   - The input side runs on the input thread only: input_fds() gives the
- *     descriptors to poll for POLLIN, or none and a tick in milliseconds
- *     for a backend that must be polled (PortMidi has no descriptor).
+ *     descriptors to poll for POLLIN (with *tick_ms = -1: no tick needed),
+ *     or none and a tick in milliseconds for a backend that must be polled
+ *     (PortMidi has no descriptor).  service_input() may be called at any
+ *     time, with nothing pending too.
  *     service_input() reads everything pending and reports it through the
  *     callbacks: raw MIDI bytes per source, in arrival order (SysEx may
  *     come in several pieces; the daemon's parser per source joins them),
  *     and connection events.  Hotplug (a matching port appearing) is
- *     handled inside service_input().
+ *     handled inside service_input().  Callbacks are only ever called from
+ *     service_input(): connections made by open() are reported by the
+ *     first call.
  *   - The output side runs on the output thread only: send() queues one
- *     complete message for one output without blocking and returns false
+ *     complete message (status byte first: running status is not taken)
+ *     for one output without blocking and returns false
  *     if it cannot (the caller counts a drop); flush() pushes queued
  *     messages out after a batch.
  *   - describe() (input thread) and list() (any thread, no open needed)

@@ -1,0 +1,801 @@
+/*
+ * daemon: the main thread of `latticed run`.
+ *
+ * Start-up, in order (teardown is the reverse): config and tunings,
+ * backend choice, the queues and eventfds, the engines, the backend's
+ * ports, the control socket, memory locking, the synth set-up, then the
+ * two MIDI threads (signals blocked in them) at real-time priority, and
+ * READY=1.  Any failure before the threads start is one line naming what
+ * and how to fix it, and exit status 1.
+ *
+ * The loop sleeps in ppoll() on its eventfd (the MIDI threads write it
+ * after posting log lines or replies) and the control socket, with
+ * SIGTERM, SIGINT and SIGHUP unblocked only inside ppoll, so a signal is
+ * never missed between a check of the flags and the sleep.  The handlers
+ * only set flags.  After the first SIGINT or SIGTERM the default action is
+ * restored for SIGINT, so a second one ends the process at once even if
+ * the orderly stop hangs.
+ *
+ * Reload (SIGHUP or `reload`): the file is read and the tunings built
+ * here; any error is logged line by line and the running state is kept.
+ * Only the tunings are applied, between two MIDI messages, without
+ * cutting a sounding note.  Settings that would need new ports or new
+ * engines ([daemon], connect, outputs added or removed, an output's
+ * method, channels and the other retuning settings, [input], [control])
+ * are not applied: each is logged as needing a restart.
+ */
+/* ppoll(2), Linux: the race-free sleep with signals open only while asleep */
+#define _GNU_SOURCE
+#include "daemon.h"
+
+#include <errno.h>
+#include <json-c/json.h>
+#include <poll.h>
+#include <pthread.h>
+#include <signal.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/eventfd.h>
+#include <time.h>
+#include <unistd.h>
+
+#include "config.h"
+#include "control_path.h"
+#include "control_server.h"
+#include "input_thread.h"
+#include "log_ring.h"
+#include "msg_queue.h"
+#include "notify.h"
+#include "output_thread.h"
+#include "realtime.h"
+#include "snapshot.h"
+
+#define THREAD_STACK (512 * 1024)
+#define MAIN_POLL_MAX (CONTROL_CLIENTS_MAX + 2)
+#define DEFAULT_HEARTBEAT_MS 1000
+
+static volatile sig_atomic_t quit_requested;
+static volatile sig_atomic_t reload_requested;
+
+static void on_signal(int sig)
+{
+	if (sig == SIGHUP)
+		reload_requested = 1;
+	else
+		quit_requested = sig;
+}
+
+struct daemon {
+	const struct daemon_options *options;
+	char config_path[CONFIG_PATH_MAX];   /* empty: built-in defaults */
+	struct config *cfg;                  /* as started: ports and engines */
+	struct tuning_set *tunings;          /* current, owned by the input thread while it runs */
+	const struct midi_io_backend *backend;
+	struct midi_io *io;
+	struct msg_queue *messages;
+	struct input_thread *in;
+	struct output_thread *out;
+	struct control_server control;
+	int main_wake_fd;
+	bool threads_running;
+	int64_t started_ms;
+	uint64_t watchdog_usec;
+	uint64_t last_heartbeat;
+	int64_t last_ping_ms;
+	bool stall_logged;
+	bool reload_in_flight;
+	int reload_client;                   /* -1: SIGHUP */
+	char reload_notes[512];              /* what needs a restart */
+	char state[REPLY_TEXT_MAX];          /* current preset and root */
+	sigset_t run_mask;                   /* signals unblocked inside ppoll */
+};
+
+/* ---- helpers ------------------------------------------------------------- */
+
+static void print_report_lines(const struct config_report *r, enum log_level errors)
+{
+	const char *p = r->text, *end = r->text + r->length;
+	while (p < end) {
+		const char *nl = memchr(p, '\n', (size_t)(end - p));
+		if (!nl)
+			nl = end;
+		bool warning = strstr(p, ": warning: ") && strstr(p, ": warning: ") < nl;
+		log_print(warning ? LOG_LEVEL_WARNING : errors, "%.*s", (int)(nl - p), p);
+		p = nl + 1;
+	}
+}
+
+static const struct midi_io_backend *choose_backend(const char *name, char *err, size_t err_size)
+{
+	if (strcmp(name, "auto") == 0) {
+		static const char *const order[] = {"alsa", "portmidi", "null"};
+		for (size_t i = 0; i < sizeof order / sizeof order[0]; i++) {
+			const struct midi_io_backend *b = midi_io_find(order[i]);
+			if (b)
+				return b;
+		}
+	}
+	const struct midi_io_backend *b = midi_io_find(name);
+	if (!b)
+		snprintf(err, err_size, "backend '%s' is not in this build, expected one of: %s",
+			 name, midi_io_available());
+	return b;
+}
+
+static void reply_json(struct daemon *d, int id, struct json_object *o)
+{
+	if (id >= 0)
+		control_server_reply(&d->control, id,
+				     json_object_to_json_string_ext(o, JSON_C_TO_STRING_PLAIN));
+	json_object_put(o);
+}
+
+static void reply_simple(struct daemon *d, int id, bool ok, const char *text)
+{
+	struct json_object *o = json_object_new_object();
+	json_object_object_add(o, "ok", json_object_new_boolean(ok));
+	json_object_object_add(o, ok ? "message" : "error", json_object_new_string(text));
+	reply_json(d, id, o);
+}
+
+/* ---- reload ---------------------------------------------------------------- */
+
+static void note_restart(struct daemon *d, const char *what)
+{
+	size_t used = strlen(d->reload_notes);
+	snprintf(d->reload_notes + used, sizeof d->reload_notes - used, "%s%s",
+		 used ? "; " : "", what);
+	log_print(LOG_LEVEL_NOTICE, "reload: %s changed; this needs a restart (not applied)", what);
+}
+
+static bool same_connect(const struct connect_list *a, const struct connect_list *b)
+{
+	if (a->count != b->count)
+		return false;
+	for (int i = 0; i < a->count; i++)
+		if (strcmp(a->patterns[i], b->patterns[i]) != 0)
+			return false;
+	return true;
+}
+
+/* Lists (and logs) what a reload cannot apply without a restart. */
+static void compare_for_restart(struct daemon *d, const struct config *now)
+{
+	const struct config *was = d->cfg;
+	char what[128];
+	d->reload_notes[0] = '\0';
+	const struct daemon_config *a = &was->daemon, *b = &now->daemon;
+	if (strcmp(a->backend, b->backend) || strcmp(a->client_name, b->client_name) ||
+	    a->realtime_priority != b->realtime_priority || a->lock_memory != b->lock_memory ||
+	    strcmp(a->control_socket, b->control_socket))
+		note_restart(d, "[daemon]");
+	if (!same_connect(&was->input.connect, &now->input.connect))
+		note_restart(d, "[input] connect");
+	bool outputs_same = was->output_count == now->output_count;
+	for (int i = 0; outputs_same && i < was->output_count; i++)
+		outputs_same = strcmp(was->outputs[i].name, now->outputs[i].name) == 0;
+	if (!outputs_same) {
+		note_restart(d, "the list of [output] sections");
+	} else {
+		for (int i = 0; i < was->output_count; i++) {
+			struct engine_spec sa, sb;
+			config_engine_spec(was, i, &sa);
+			config_engine_spec(now, i, &sb);
+			/* the input and control parts are the same for every output: report once */
+			if (i == 0 && (memcmp(&sa.input, &sb.input, sizeof sa.input) ||
+				       memcmp(&sa.control, &sb.control, sizeof sa.control)))
+				note_restart(d, "[input] or [control]");
+			if (memcmp(&sa.output, &sb.output, sizeof sa.output) ||
+			    was->outputs[i].running_status != now->outputs[i].running_status) {
+				snprintf(what, sizeof what, "[output %s] retuning settings", was->outputs[i].name);
+				note_restart(d, what);
+			}
+			if (!same_connect(&was->outputs[i].connect, &now->outputs[i].connect)) {
+				snprintf(what, sizeof what, "[output %s] connect", was->outputs[i].name);
+				note_restart(d, what);
+			}
+		}
+	}
+}
+
+static void reload_failed(struct daemon *d, int id, const struct config_report *report)
+{
+	print_report_lines(report, LOG_LEVEL_ERROR);
+	log_print(LOG_LEVEL_ERROR, "reload of %s failed; still running the previous configuration",
+		  d->config_path);
+	notify_ready();
+	struct json_object *o = json_object_new_object();
+	json_object_object_add(o, "ok", json_object_new_boolean(false));
+	char text[CONFIG_PATH_MAX + 64];
+	snprintf(text, sizeof text, "reload of %s failed; still running the previous configuration",
+		 d->config_path);
+	json_object_object_add(o, "error", json_object_new_string(text));
+	struct json_object *lines = json_object_new_array();
+	const char *p = report->text, *end = report->text + report->length;
+	while (p < end) {
+		const char *nl = memchr(p, '\n', (size_t)(end - p));
+		if (!nl)
+			nl = end;
+		json_object_array_add(lines, json_object_new_string_len(p, (int)(nl - p)));
+		p = nl + 1;
+	}
+	json_object_object_add(o, "details", lines);
+	reply_json(d, id, o);
+}
+
+static void start_reload(struct daemon *d, int id)
+{
+	if (!d->config_path[0]) {
+		log_print(LOG_LEVEL_WARNING, "reload: started on the built-in defaults, there is no file to read");
+		reply_simple(d, id, false, "started on the built-in defaults: there is no config file to reload");
+		return;
+	}
+	if (d->reload_in_flight) {
+		reply_simple(d, id, false, "a reload is already in progress");
+		return;
+	}
+	notify_reloading();
+	log_print(LOG_LEVEL_INFO, "reload: reading %s", d->config_path);
+	struct config *cfg = malloc(sizeof *cfg);
+	struct tuning_set *set = malloc(sizeof *set);
+	struct config_report *report = malloc(sizeof *report);
+	if (!cfg || !set || !report) {
+		free(cfg);
+		free(set);
+		free(report);
+		log_print(LOG_LEVEL_ERROR, "reload: out of memory; still running the previous configuration");
+		reply_simple(d, id, false, "out of memory");
+		notify_ready();
+		return;
+	}
+	if (!config_load(d->config_path, cfg, report) ||
+	    (print_report_lines(report, LOG_LEVEL_WARNING), !config_build_tunings(cfg, set, report))) {
+		reload_failed(d, id, report);
+		free(cfg);
+		free(set);
+		free(report);
+		return;
+	}
+	print_report_lines(report, LOG_LEVEL_WARNING);
+	compare_for_restart(d, cfg);
+	free(cfg);
+	free(report);
+	struct request r = {.kind = REQUEST_TUNINGS, .id = id, .tunings = set};
+	if (!input_thread_post(d->in, &r)) {
+		tuning_set_free(set);
+		free(set);
+		reply_simple(d, id, false, "the MIDI thread is not taking requests");
+		notify_ready();
+		return;
+	}
+	d->reload_in_flight = true;
+	d->reload_client = id;
+}
+
+static void finish_reload(struct daemon *d, const struct reply *rep)
+{
+	d->reload_in_flight = false;
+	log_print(LOG_LEVEL_NOTICE, "reloaded %s: %s (sounding notes keep their tuning)",
+		  d->config_path, rep->text);
+	notify_ready();
+	notify_status("Reloaded: %s", rep->text);
+	struct json_object *o = json_object_new_object();
+	json_object_object_add(o, "ok", json_object_new_boolean(true));
+	char text[REPLY_TEXT_MAX + 64];
+	snprintf(text, sizeof text, "reloaded: %s", rep->text);
+	json_object_object_add(o, "message", json_object_new_string(text));
+	if (d->reload_notes[0]) {
+		char notes[sizeof d->reload_notes + 64];
+		snprintf(notes, sizeof notes, "not applied, needs a restart: %s", d->reload_notes);
+		json_object_object_add(o, "restart_needed", json_object_new_string(notes));
+	}
+	reply_json(d, d->reload_client, o);
+}
+
+/* ---- control requests ---------------------------------------------------- */
+
+static void post_or_fail(struct daemon *d, int id, const struct request *r)
+{
+	if (!input_thread_post(d->in, r))
+		reply_simple(d, id, false, "the MIDI thread is busy; try again");
+}
+
+static bool parse_number(const char *text, int *out)
+{
+	char *end;
+	errno = 0;
+	long v = strtol(text, &end, 10);
+	if (errno || end == text || *end != '\0' || v < 0 || v > 100000)
+		return false;
+	*out = (int)v;
+	return true;
+}
+
+static void on_request(void *context, int id, const char *line)
+{
+	struct daemon *d = context;
+	char word[32] = "", arg[CONTROL_LINE_MAX] = "";
+	const char *p = line;
+	while (*p == ' ' || *p == '\t')
+		p++;
+	size_t n = strcspn(p, " \t");
+	if (n >= sizeof word) {
+		reply_simple(d, id, false, "unknown request, expected status, panic, preset NAME, root N or reload");
+		return;
+	}
+	memcpy(word, p, n);
+	word[n] = '\0';
+	p += n;
+	while (*p == ' ' || *p == '\t')
+		p++;
+	snprintf(arg, sizeof arg, "%s", p);
+	for (size_t len = strlen(arg); len > 0 && (arg[len - 1] == ' ' || arg[len - 1] == '\t');)
+		arg[--len] = '\0';
+
+	struct request r = {.id = id, .number = -1};
+	if (strcmp(word, "status") == 0) {
+		struct status_snapshot *s = malloc(sizeof *s);
+		if (!s) {
+			reply_simple(d, id, false, "out of memory");
+			return;
+		}
+		r.kind = REQUEST_SNAPSHOT;
+		r.snapshot = s;
+		if (!input_thread_post(d->in, &r)) {
+			free(s);
+			reply_simple(d, id, false, "the MIDI thread is busy; try again");
+		}
+	} else if (strcmp(word, "panic") == 0) {
+		log_print(LOG_LEVEL_NOTICE, "panic requested over the control socket");
+		r.kind = REQUEST_PANIC;
+		post_or_fail(d, id, &r);
+	} else if (strcmp(word, "preset") == 0 && arg[0]) {
+		r.kind = REQUEST_PRESET;
+		size_t len = strlen(arg);
+		if (len >= sizeof r.name) {
+			reply_simple(d, id, false, "no preset has a name that long");
+			return;
+		}
+		memcpy(r.name, arg, len + 1);
+		if (!parse_number(arg, &r.number))
+			r.number = -1;
+		post_or_fail(d, id, &r);
+	} else if (strcmp(word, "root") == 0 && arg[0]) {
+		if (!parse_number(arg, &r.number)) {
+			reply_simple(d, id, false, "root needs a number: 0 (home) or n (tone n-1 becomes 1/1)");
+			return;
+		}
+		r.kind = REQUEST_ROOT;
+		post_or_fail(d, id, &r);
+	} else if (strcmp(word, "reload") == 0) {
+		start_reload(d, id);
+	} else {
+		char text[CONTROL_LINE_MAX + 96];
+		snprintf(text, sizeof text, "unknown request '%.64s', expected status, panic, preset NAME, root N or reload",
+			 line);
+		reply_simple(d, id, false, text);
+	}
+}
+
+/* ---- replies from the input thread ---------------------------------------- */
+
+static void send_status(struct daemon *d, const struct reply *rep)
+{
+	struct snapshot_extra extra = {
+		.version = d->options->version,
+		.pid = (int)getpid(),
+		.uptime_seconds = (double)(monotonic_ms() - d->started_ms) / 1000.0,
+		.config = d->config_path[0] ? d->config_path : "(built-in defaults)",
+		.backend = d->backend->name,
+		.control_socket = d->control.path,
+	};
+	struct json_object *o = json_object_new_object();
+	json_object_object_add(o, "ok", json_object_new_boolean(true));
+	json_object_object_add(o, "status", snapshot_json(rep->snapshot, &extra));
+	reply_json(d, rep->id, o);
+	free(rep->snapshot);
+}
+
+static void handle_replies(struct daemon *d)
+{
+	struct reply rep;
+	while (input_thread_take_reply(d->in, &rep)) {
+		switch (rep.kind) {
+		case REPLY_DONE:
+			if (rep.request == REQUEST_TUNINGS) {
+				finish_reload(d, &rep);
+				break;
+			}
+			if (rep.ok && rep.request != REQUEST_PANIC)
+				log_print(LOG_LEVEL_INFO, "control: %s", rep.text);
+			reply_simple(d, rep.id, rep.ok, rep.text);
+			break;
+		case REPLY_SNAPSHOT:
+			send_status(d, &rep);
+			break;
+		case REPLY_RETIRED_TUNINGS:
+			tuning_set_free(rep.tunings);
+			free(rep.tunings);
+			break;
+		case REPLY_TUNING_STATE:
+			snprintf(d->state, sizeof d->state, "%s", rep.text);
+			log_print(LOG_LEVEL_INFO, "now playing %s", rep.text);
+			notify_status("Running: %s", rep.text);
+			break;
+		case REPLY_QUIT_DONE:
+			break;
+		}
+	}
+}
+
+static void drain_logs(struct daemon *d)
+{
+	log_ring_drain(&d->in->log);
+	log_ring_drain(&d->out->log);
+}
+
+/* ---- watchdog --------------------------------------------------------------- */
+
+static void watchdog_tick(struct daemon *d)
+{
+	if (!d->watchdog_usec)
+		return;
+	int64_t now = monotonic_ms();
+	if (now - d->last_ping_ms < (int64_t)(d->watchdog_usec / 4000))
+		return;
+	uint64_t beat = atomic_load_explicit(&d->in->heartbeat, memory_order_relaxed);
+	if (beat == d->last_heartbeat) {
+		/* the MIDI thread is stuck: let systemd see it and restart us */
+		if (!d->stall_logged)
+			log_print(LOG_LEVEL_ERROR, "the MIDI input thread has not run for %lld ms; no watchdog ping",
+				  (long long)(now - d->last_ping_ms));
+		d->stall_logged = true;
+		return;
+	}
+	d->last_heartbeat = beat;
+	d->last_ping_ms = now;
+	d->stall_logged = false;
+	notify_watchdog();
+}
+
+/* ---- start-up and teardown ------------------------------------------------- */
+
+static bool load_startup_config(struct daemon *d, struct config *cfg)
+{
+	const struct daemon_options *o = d->options;
+	const char *path = o->config_path;
+	if (!path && access(o->default_config_path, F_OK) == 0)
+		path = o->default_config_path;
+	if (!path) {
+		config_defaults(cfg);
+		log_print(LOG_LEVEL_NOTICE, "no config at %s; using the built-in defaults",
+			  o->default_config_path);
+		return true;
+	}
+	snprintf(d->config_path, sizeof d->config_path, "%s", path);
+	struct config_report *report = malloc(sizeof *report);
+	if (!report)
+		return false;
+	bool ok = config_load(path, cfg, report);
+	print_report_lines(report, LOG_LEVEL_ERROR);
+	free(report);
+	return ok;
+}
+
+static bool build_startup_tunings(struct daemon *d)
+{
+	struct config_report *report = malloc(sizeof *report);
+	d->tunings = malloc(sizeof *d->tunings);
+	if (!report || !d->tunings) {
+		free(report);
+		return false;
+	}
+	bool ok = config_build_tunings(d->cfg, d->tunings, report);
+	print_report_lines(report, LOG_LEVEL_ERROR);
+	free(report);
+	if (!ok) {
+		free(d->tunings);
+		d->tunings = NULL;
+	}
+	return ok;
+}
+
+static int make_eventfd(void)
+{
+	return eventfd(0, EFD_NONBLOCK | EFD_CLOEXEC);
+}
+
+static bool start_threads(struct daemon *d)
+{
+	pthread_attr_t attr;
+	pthread_attr_init(&attr);
+	pthread_attr_setstacksize(&attr, THREAD_STACK);
+	int rc = pthread_create(&d->out->thread, &attr, output_thread_run, d->out);
+	if (rc == 0) {
+		rc = pthread_create(&d->in->thread, &attr, input_thread_run, d->in);
+		if (rc != 0) {
+			output_thread_stop(d->out);
+			pthread_join(d->out->thread, NULL);
+		}
+	}
+	pthread_attr_destroy(&attr);
+	if (rc != 0) {
+		log_print(LOG_LEVEL_ERROR, "cannot start the MIDI threads: %s", strerror(rc));
+		return false;
+	}
+	d->threads_running = true;
+	if (d->cfg->daemon.realtime_priority > 0) {
+		pthread_t threads[2] = {d->in->thread, d->out->thread};
+		if (realtime_promote(threads, 2, d->cfg->daemon.realtime_priority))
+			log_print(LOG_LEVEL_INFO, "MIDI threads at real-time priority %d (SCHED_FIFO)",
+				  d->cfg->daemon.realtime_priority);
+	}
+	return true;
+}
+
+static void stop_threads(struct daemon *d)
+{
+	if (!d->threads_running)
+		return;
+	struct request quit = {.kind = REQUEST_QUIT, .id = -1};
+	const struct timespec pause = {0, 1000000};
+	while (!input_thread_post(d->in, &quit)) {
+		handle_replies(d);
+		nanosleep(&pause, NULL);
+	}
+	pthread_join(d->in->thread, NULL);
+	output_thread_stop(d->out);
+	pthread_join(d->out->thread, NULL);
+	d->threads_running = false;
+	drain_logs(d);
+	handle_replies(d);
+	/* replies the thread could not queue are ours now that it has gone */
+	for (int i = 0; i < d->in->outbox_count; i++) {
+		struct reply *rep = &d->in->outbox[i];
+		if (rep->kind == REPLY_RETIRED_TUNINGS) {
+			tuning_set_free(rep->tunings);
+			free(rep->tunings);
+		} else if (rep->kind == REPLY_SNAPSHOT) {
+			free(rep->snapshot);
+		}
+	}
+	d->in->outbox_count = 0;
+}
+
+static void install_signals(struct daemon *d)
+{
+	struct sigaction sa;
+	memset(&sa, 0, sizeof sa);
+	sa.sa_handler = on_signal;
+	sigemptyset(&sa.sa_mask);
+	sigaction(SIGTERM, &sa, NULL);
+	sigaction(SIGINT, &sa, NULL);
+	sigaction(SIGHUP, &sa, NULL);
+	struct sigaction ignore;
+	memset(&ignore, 0, sizeof ignore);
+	ignore.sa_handler = SIG_IGN;
+	sigaction(SIGPIPE, &ignore, NULL); /* a reader leaving a FIFO or socket is an error code */
+	sigset_t block;
+	sigemptyset(&block);
+	sigaddset(&block, SIGTERM);
+	sigaddset(&block, SIGINT);
+	sigaddset(&block, SIGHUP);
+	/* blocked everywhere (the MIDI threads inherit it), open only inside ppoll */
+	pthread_sigmask(SIG_BLOCK, &block, &d->run_mask);
+	sigdelset(&d->run_mask, SIGTERM);
+	sigdelset(&d->run_mask, SIGINT);
+	sigdelset(&d->run_mask, SIGHUP);
+}
+
+static void main_loop(struct daemon *d)
+{
+	struct pollfd fds[MAIN_POLL_MAX];
+	while (!quit_requested) {
+		fds[0] = (struct pollfd){.fd = d->main_wake_fd, .events = POLLIN};
+		int n = 1 + control_server_pollfds(&d->control, fds + 1, MAIN_POLL_MAX - 1);
+		int timeout_ms = DEFAULT_HEARTBEAT_MS;
+		if (d->watchdog_usec && (int)(d->watchdog_usec / 4000) < timeout_ms)
+			timeout_ms = (int)(d->watchdog_usec / 4000);
+		struct timespec timeout = {timeout_ms / 1000, (long)(timeout_ms % 1000) * 1000000L};
+		int ready = ppoll(fds, (nfds_t)n, &timeout, &d->run_mask);
+		if (ready > 0 && (fds[0].revents & POLLIN))
+			wake_fd_clear(d->main_wake_fd);
+		drain_logs(d);
+		handle_replies(d);
+		if (ready > 0)
+			control_server_service(&d->control, fds + 1, n - 1, on_request, d);
+		if (reload_requested) {
+			reload_requested = 0;
+			log_print(LOG_LEVEL_INFO, "SIGHUP: reloading");
+			start_reload(d, -1);
+		}
+		watchdog_tick(d);
+	}
+}
+
+int daemon_run(const struct daemon_options *options)
+{
+	struct daemon d;
+	memset(&d, 0, sizeof d);
+	d.options = options;
+	d.main_wake_fd = -1;
+	d.reload_client = -1;
+	d.started_ms = monotonic_ms();
+	control_server_init(&d.control);
+	log_setup();
+	int status = 1;
+	char err[512] = "";
+
+	d.cfg = malloc(sizeof *d.cfg);
+	if (!d.cfg || !load_startup_config(&d, d.cfg))
+		goto out_config;
+	if (!build_startup_tunings(&d))
+		goto out_config;
+	const char *backend_name = options->backend ? options->backend : d.cfg->daemon.backend;
+	d.backend = choose_backend(backend_name, err, sizeof err);
+	if (!d.backend) {
+		log_print(LOG_LEVEL_ERROR, "%s", err);
+		goto out_tunings;
+	}
+
+	d.messages = malloc(sizeof *d.messages);
+	d.in = calloc(1, sizeof *d.in);
+	d.out = calloc(1, sizeof *d.out);
+	d.main_wake_fd = make_eventfd();
+	if (!d.messages || !d.in || !d.out || d.main_wake_fd < 0) {
+		log_print(LOG_LEVEL_ERROR, "cannot set up: %s", strerror(errno ? errno : ENOMEM));
+		goto out_memory;
+	}
+	msg_queue_init(d.messages);
+	output_thread_init(d.out);
+	d.in->wake_fd = make_eventfd();
+	d.out->wake_fd = make_eventfd();
+	if (d.in->wake_fd < 0 || d.out->wake_fd < 0) {
+		log_print(LOG_LEVEL_ERROR, "cannot make eventfds: %s", strerror(errno));
+		goto out_fds;
+	}
+	if (!input_thread_init(d.in, d.cfg, d.tunings, err, sizeof err)) {
+		log_print(LOG_LEVEL_ERROR, "%s", err);
+		goto out_fds;
+	}
+	d.watchdog_usec = notify_watchdog_usec();
+	d.in->heartbeat_ms = DEFAULT_HEARTBEAT_MS;
+	/* pings go every quarter period, each needing a fresh heartbeat: beat twice as often */
+	if (d.watchdog_usec && d.watchdog_usec / 8000 < (uint64_t)d.in->heartbeat_ms)
+		d.in->heartbeat_ms = (int)(d.watchdog_usec / 8000) > 0 ? (int)(d.watchdog_usec / 8000) : 1;
+	d.in->messages = d.messages;
+	d.in->output = d.out;
+	d.in->output_wake_fd = d.out->wake_fd;
+	d.in->main_wake_fd = d.main_wake_fd;
+	d.out->messages = d.messages;
+	d.out->main_wake_fd = d.main_wake_fd;
+	d.out->output_count = d.cfg->output_count;
+	for (int i = 0; i < d.cfg->output_count; i++) {
+		snprintf(d.out->names[i], sizeof d.out->names[i], "%s", d.cfg->outputs[i].name);
+		/* bytes straight to a wire only with the raw backend; others take whole events */
+		d.out->running_status[i] = d.cfg->outputs[i].running_status &&
+					   strcmp(d.backend->name, "raw") == 0;
+	}
+
+	struct midi_io_spec spec;
+	config_io_spec(d.cfg, &spec);
+	struct midi_io_callbacks callbacks = input_thread_callbacks(d.in);
+	d.io = d.backend->open(&spec, &callbacks, err, sizeof err);
+	if (!d.io) {
+		log_print(LOG_LEVEL_ERROR, "%s", err[0] ? err : "the MIDI backend did not open");
+		goto out_fds;
+	}
+	d.in->backend = d.out->backend = d.backend;
+	d.in->io = d.out->io = d.io;
+
+	char path[CONTROL_PATH_MAX];
+	if (control_path_for_daemon(d.cfg->daemon.control_socket, path, sizeof path) &&
+	    !control_server_open(&d.control, path, err, sizeof err)) {
+		log_print(LOG_LEVEL_ERROR, "%s", err);
+		goto out_backend;
+	}
+	if (d.cfg->daemon.lock_memory)
+		realtime_lock_memory();
+
+	install_signals(&d);
+	input_thread_start_outputs(d.in);
+	if (!start_threads(&d))
+		goto out_control;
+
+	drain_logs(&d);
+	char ports[256] = "";
+	for (int i = 0; i < d.cfg->output_count; i++) {
+		size_t used = strlen(ports);
+		snprintf(ports + used, sizeof ports - used, "%s%s", i ? ", " : "", d.cfg->outputs[i].name);
+	}
+	log_print(LOG_LEVEL_NOTICE, "running: backend %s, config %s, outputs %s, control %s",
+		  d.backend->name, d.config_path[0] ? d.config_path : "(built-in defaults)", ports,
+		  d.control.listen_fd >= 0 ? d.control.path : "none");
+	notify_ready();
+	notify_status("Running: backend %s, outputs %s, preset %s", d.backend->name, ports,
+		      d.tunings->engine.presets[0].name);
+
+	main_loop(&d);
+
+	/* a second SIGINT from now on ends the process at once */
+	struct sigaction dfl;
+	memset(&dfl, 0, sizeof dfl);
+	dfl.sa_handler = SIG_DFL;
+	sigaction(SIGINT, &dfl, NULL);
+	sigset_t intr;
+	sigemptyset(&intr);
+	sigaddset(&intr, SIGINT);
+	pthread_sigmask(SIG_UNBLOCK, &intr, NULL);
+	notify_stopping();
+	log_print(LOG_LEVEL_NOTICE, "%s: ending every note and stopping",
+		  quit_requested == SIGINT ? "SIGINT" : "SIGTERM");
+	stop_threads(&d);
+	log_print(LOG_LEVEL_NOTICE, "stopped");
+	status = 0;
+
+out_control:
+	control_server_close(&d.control);
+out_backend:
+	if (d.threads_running)
+		stop_threads(&d);
+	d.backend->close(d.io);
+out_fds:
+	if (d.in->wake_fd > 0)
+		close(d.in->wake_fd);
+	if (d.out->wake_fd > 0)
+		close(d.out->wake_fd);
+out_memory:
+	if (d.main_wake_fd >= 0)
+		close(d.main_wake_fd);
+	free(d.messages);
+	/* the input thread gave back every retired set; the current one is ours again */
+	if (d.in && d.in->tunings)
+		d.tunings = d.in->tunings;
+	free(d.in);
+	free(d.out);
+out_tunings:
+	if (d.tunings) {
+		struct tuning_set *current = d.tunings;
+		tuning_set_free(current);
+		free(current);
+	}
+out_config:
+	free(d.cfg);
+	return status;
+}
+
+static void print_line(void *context, const char *line)
+{
+	(void)context;
+	printf("%s\n", line);
+}
+
+int daemon_list_ports(const struct daemon_options *options)
+{
+	struct daemon d;
+	memset(&d, 0, sizeof d);
+	d.options = options;
+	char err[512] = "";
+	const char *name = options->backend;
+	struct config *cfg = NULL;
+	if (!name) {
+		cfg = malloc(sizeof *cfg);
+		if (!cfg || !load_startup_config(&d, cfg)) {
+			free(cfg);
+			return 1;
+		}
+		name = cfg->daemon.backend;
+	}
+	const struct midi_io_backend *b = choose_backend(name, err, sizeof err);
+	int status = 1;
+	if (!b) {
+		fprintf(stderr, "latticed: %s\n", err);
+	} else if (!b->list(print_line, NULL, err, sizeof err)) {
+		fprintf(stderr, "latticed: %s\n", err);
+	} else {
+		status = fflush(stdout) == 0 ? 0 : 1;
+	}
+	free(cfg);
+	return status;
+}

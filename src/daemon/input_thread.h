@@ -1,0 +1,133 @@
+/*
+ * input_thread: the thread that turns the player's bytes into every
+ * output's messages.
+ *
+ * It owns, and alone touches: the backend's input side, one midi_parser
+ * per source (so SysEx from two devices never mixes), one engine per
+ * output, the current tuning set and the retired ones still needed by
+ * sounding notes.  Each loop it polls the backend's descriptors, its
+ * request wake-up descriptor and a timeout (the backend's tick, and the
+ * heartbeat period so the watchdog sees it alive with no MIDI at all),
+ * services the backend, then takes the main thread's requests, which
+ * therefore always land between two messages.
+ *
+ * It talks to the others only through queues: encoded messages to the
+ * output thread (msg_queue, then a write to the output thread's eventfd),
+ * replies and log lines to the main thread (spsc_queue and log_ring, then
+ * a write to the main thread's eventfd).  Two kinds of values are read
+ * across threads without a queue, both atomics: its heartbeat counter
+ * (read by the main thread for the watchdog) and the output thread's
+ * per-output counters (read here for status snapshots).
+ *
+ * Nothing in the loop allocates, locks, prints or blocks, except at the
+ * final panic of a shutdown, which waits (at most about 2 s) for room in
+ * the output queue so that every note-off gets out.
+ */
+#ifndef LATTICED_INPUT_THREAD_H
+#define LATTICED_INPUT_THREAD_H
+
+#include <pthread.h>
+#include <stdatomic.h>
+#include <stdint.h>
+
+#include "config.h"
+#include "latticed/engine.h"
+#include "latticed/midi_parser.h"
+#include "log_ring.h"
+#include "midi_io.h"
+#include "msg_queue.h"
+#include "request.h"
+#include "spsc_queue.h"
+
+#define INPUT_RETIRED_MAX 4
+#define INPUT_OUTBOX_MAX 32
+
+struct output_thread;
+
+struct input_output {                /* one output, as the input thread sees it */
+	struct input_thread *owner;
+	uint8_t index;
+	char name[ENGINE_NAME_MAX];
+	struct engine engine;
+	uint64_t queued, queue_drops;
+	uint64_t drops_logged;           /* queue_drops when last logged */
+	int64_t drop_logged_ms;
+};
+
+struct input_source {
+	bool connected, seen;
+	char name[MIDI_IO_NAME_MAX * 2];
+	uint64_t messages;
+	struct midi_parser parser;
+	uint8_t sysex[MSG_QUEUE_MESSAGE_MAX];
+};
+
+struct retired_tunings {
+	struct tuning_set *set;
+	uint32_t serial[MIDI_IO_MAX_OUTPUTS]; /* each engine's serial at the swap */
+};
+
+struct input_thread {
+	/* set up by the main thread before the thread starts */
+	const struct midi_io_backend *backend;
+	struct midi_io *io;
+	int output_count;
+	struct input_output outputs[MIDI_IO_MAX_OUTPUTS];
+	struct input_source sources[MIDI_IO_MAX_SOURCES];
+	struct tuning_set *tunings;
+	struct msg_queue *messages;      /* producer side */
+	struct output_thread *output;    /* for its counters only */
+	int output_wake_fd;              /* eventfd of the output thread */
+	int main_wake_fd;                /* eventfd of the main thread */
+	int wake_fd;                     /* ours: a request is waiting */
+	int heartbeat_ms;                /* longest sleep */
+	struct spsc_queue requests;      /* consumer side */
+	struct request request_slots[REQUEST_QUEUE_SLOTS];
+	struct spsc_queue replies;       /* producer side */
+	struct reply reply_slots[REPLY_QUEUE_SLOTS];
+	struct log_ring log;             /* producer side */
+
+	/* read by the main thread */
+	atomic_uint_fast64_t heartbeat;
+
+	/* the thread's own */
+	pthread_t thread;
+	bool quit;
+	bool shutting_down;              /* the final panic: wait for queue room */
+	bool wake_output, wake_main;
+	uint32_t reloads;
+	uint32_t forgotten_serial[MIDI_IO_MAX_OUTPUTS];
+	int retired_count;
+	struct retired_tunings retired[INPUT_RETIRED_MAX];
+	int outbox_count;
+	struct reply outbox[INPUT_OUTBOX_MAX];
+	int last_preset, last_root;
+	int64_t retired_checked_ms;
+	uint8_t encode_buffer[MSG_QUEUE_MESSAGE_MAX];
+};
+
+/*
+ * Prepares the thread's state: engines for every output of cfg (specs from
+ * config_engine_spec) over `tunings`, one parser per source, the queues.
+ * The backend is opened by the caller, with input_thread_callbacks() as
+ * its callbacks.  Returns false with a message in err.
+ */
+bool input_thread_init(struct input_thread *t, const struct config *cfg,
+		       struct tuning_set *tunings, char *err, size_t err_size);
+
+/* The callbacks the backend must be opened with (context = t). */
+struct midi_io_callbacks input_thread_callbacks(struct input_thread *t);
+
+/* Sends every output's synth set-up (engine_start); before the thread runs. */
+void input_thread_start_outputs(struct input_thread *t);
+
+/* Runs the loop; returns when a REQUEST_QUIT has been handled. */
+void *input_thread_run(void *arg);
+
+/* Main thread: posts a request and wakes the thread; false if the queue is full. */
+bool input_thread_post(struct input_thread *t, const struct request *r);
+
+/* Main thread: the next reply, false if none. */
+bool input_thread_take_reply(struct input_thread *t, struct reply *out);
+
+#endif

@@ -1,0 +1,61 @@
+/*
+ * request: what the main thread asks of the input thread, and what comes
+ * back.  Both travel through an spsc_queue (one each way) as plain values;
+ * a pointer in them passes ownership of what it points at: a tuning set
+ * or a snapshot belongs to the input thread from the moment its request is
+ * pushed until it comes back in a reply, and to the main thread otherwise.
+ * `id` is the main thread's own tag (a control client), returned as is.
+ */
+#ifndef LATTICED_REQUEST_H
+#define LATTICED_REQUEST_H
+
+#include <stdbool.h>
+#include <stdint.h>
+
+#include "latticed/engine.h"
+
+struct tuning_set;
+struct status_snapshot;
+
+enum request_kind {
+	REQUEST_PANIC,            /* every note off on every output */
+	REQUEST_PRESET,           /* by name, or by index when name is empty */
+	REQUEST_ROOT,             /* number: 0 home, n: tone n-1 becomes 1/1 */
+	REQUEST_TUNINGS,          /* swap in `tunings` (a reload) */
+	REQUEST_SNAPSHOT,         /* fill `snapshot` */
+	REQUEST_QUIT,             /* panic, stop reading, exit the loop */
+};
+
+struct request {
+	enum request_kind kind;
+	int id;
+	int number;
+	char name[ENGINE_NAME_MAX];
+	struct tuning_set *tunings;
+	struct status_snapshot *snapshot;
+};
+
+enum reply_kind {
+	REPLY_DONE,               /* a request finished: ok, text says what */
+	REPLY_SNAPSHOT,           /* `snapshot` is filled */
+	REPLY_RETIRED_TUNINGS,    /* `tunings` is no longer used: free it */
+	REPLY_TUNING_STATE,       /* preset or root changed (from MIDI too) */
+	REPLY_QUIT_DONE,          /* the input thread has stopped */
+};
+
+#define REPLY_TEXT_MAX 160
+
+struct reply {
+	enum reply_kind kind;
+	enum request_kind request;
+	int id;
+	bool ok;
+	char text[REPLY_TEXT_MAX];
+	struct tuning_set *tunings;
+	struct status_snapshot *snapshot;
+};
+
+#define REQUEST_QUEUE_SLOTS 64
+#define REPLY_QUEUE_SLOTS 128
+
+#endif

@@ -1,0 +1,245 @@
+/*
+ * Tests of the lock-free queues between the daemon's threads: one
+ * producer thread and one consumer thread pass 10^6 items through small
+ * queues (so they wrap and fill thousands of times) and every item must
+ * arrive once, in order; a full queue refuses a push without changing
+ * anything; multi-slot messages arrive whole or not at all.
+ * (Our own interface; the property checked is the single-producer /
+ * single-consumer FIFO contract, common practice.)
+ */
+#include <setjmp.h>
+#include <stdarg.h>
+#include <stddef.h>
+#include <stdint.h>
+#include <cmocka.h>
+#include <pthread.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "msg_queue.h"
+#include "spsc_queue.h"
+
+#define ITEMS 1000000u
+
+struct item {
+	uint32_t serial;
+	uint32_t check;              /* a function of serial: torn copies show */
+	uint8_t pad[24];
+};
+
+static uint32_t check_of(uint32_t serial)
+{
+	return serial * 2654435761u ^ 0x5bd1e995u;
+}
+
+struct shared {
+	struct spsc_queue q;
+	struct item storage[64];
+	uint32_t full_seen;          /* producer's count of refused pushes */
+};
+
+static void *produce(void *arg)
+{
+	struct shared *s = arg;
+	for (uint32_t i = 0; i < ITEMS;) {
+		struct item it = {.serial = i, .check = check_of(i)};
+		memset(it.pad, (int)(i & 0xFF), sizeof it.pad);
+		if (spsc_queue_push(&s->q, &it))
+			i++;
+		else
+			s->full_seen++;
+	}
+	return NULL;
+}
+
+static void threads_keep_order_and_lose_nothing(void **state)
+{
+	(void)state;
+	static struct shared s;
+	memset(&s, 0, sizeof s);
+	assert_true(spsc_queue_init(&s.q, s.storage, 64, sizeof s.storage[0]));
+	pthread_t producer;
+	assert_int_equal(pthread_create(&producer, NULL, produce, &s), 0);
+	uint32_t expected = 0;
+	while (expected < ITEMS) {
+		struct item it;
+		if (!spsc_queue_pop(&s.q, &it))
+			continue;
+		if (it.serial != expected || it.check != check_of(expected) ||
+		    it.pad[0] != (uint8_t)expected || it.pad[23] != (uint8_t)expected)
+			fail_msg("item %u arrived as serial %u check %08x", expected, it.serial, it.check);
+		expected++;
+	}
+	assert_int_equal(pthread_join(producer, NULL), 0);
+	struct item extra;
+	assert_false(spsc_queue_pop(&s.q, &extra)); /* nothing beyond what was sent */
+	print_message("producer found the queue full %u times\n", s.full_seen);
+}
+
+static void full_queue_refuses_and_keeps_items(void **state)
+{
+	(void)state;
+	uint32_t storage[8], v;
+	struct spsc_queue q;
+	assert_false(spsc_queue_init(&q, storage, 6, sizeof storage[0])); /* not a power of two */
+	assert_false(spsc_queue_init(&q, storage, 1, sizeof storage[0]));
+	assert_true(spsc_queue_init(&q, storage, 8, sizeof storage[0]));
+	assert_int_equal(spsc_queue_room(&q), 8);
+	assert_null(spsc_queue_peek(&q));
+	for (uint32_t i = 0; i < 8; i++) {
+		assert_true(spsc_queue_push(&q, &i));
+	}
+	assert_int_equal(spsc_queue_room(&q), 0);
+	v = 99;
+	assert_false(spsc_queue_push(&q, &v));
+	assert_int_equal(spsc_queue_count(&q), 8);
+	/* one out makes room for exactly one */
+	assert_true(spsc_queue_pop(&q, &v));
+	assert_int_equal(v, 0);
+	v = 8;
+	assert_true(spsc_queue_push(&q, &v));
+	assert_false(spsc_queue_push(&q, &v));
+	for (uint32_t i = 1; i <= 8; i++) {
+		assert_true(spsc_queue_pop(&q, &v));
+		assert_int_equal(v, i);
+	}
+	assert_false(spsc_queue_pop(&q, &v));
+	assert_int_equal(spsc_queue_room(&q), 8);
+}
+
+static void indices_wrap_around(void **state)
+{
+	(void)state;
+	uint32_t storage[4], v;
+	struct spsc_queue q;
+	assert_true(spsc_queue_init(&q, storage, 4, sizeof storage[0]));
+	/* start the free-running indices just below SIZE_MAX */
+	atomic_store(&q.head, SIZE_MAX - 2);
+	atomic_store(&q.tail, SIZE_MAX - 2);
+	q.head_seen = q.tail_seen = SIZE_MAX - 2;
+	for (uint32_t round = 0; round < 5; round++) {
+		for (uint32_t i = 0; i < 4; i++) {
+			v = round * 10 + i;
+			assert_true(spsc_queue_push(&q, &v));
+		}
+		assert_false(spsc_queue_push(&q, &v));
+		for (uint32_t i = 0; i < 4; i++) {
+			assert_true(spsc_queue_pop(&q, &v));
+			assert_int_equal(v, round * 10 + i);
+		}
+	}
+}
+
+/* ---- msg_queue: whole messages over several slots ----------------------- */
+
+static struct msg_queue mq;
+
+static void messages_whole_or_not_at_all(void **state)
+{
+	(void)state;
+	msg_queue_init(&mq);
+	uint8_t out, buf[MSG_QUEUE_MESSAGE_MAX];
+	assert_int_equal(msg_queue_pop(&mq, &out, buf, sizeof buf), 0);
+	/* a note-on, then a SysEx of 100 bytes (4 slots), then a clock */
+	uint8_t note[3] = {0x91, 60, 100}, sysex[100], clock = 0xF8;
+	sysex[0] = 0xF0;
+	for (int i = 1; i < 99; i++)
+		sysex[i] = (uint8_t)i;
+	sysex[99] = 0xF7;
+	assert_true(msg_queue_push(&mq, 2, note, 3));
+	assert_true(msg_queue_push(&mq, 5, sysex, sizeof sysex));
+	assert_true(msg_queue_push(&mq, 0, &clock, 1));
+	assert_int_equal(msg_queue_pop(&mq, &out, buf, sizeof buf), 3);
+	assert_int_equal(out, 2);
+	assert_memory_equal(buf, note, 3);
+	assert_int_equal(msg_queue_pop(&mq, &out, buf, sizeof buf), 100);
+	assert_int_equal(out, 5);
+	assert_memory_equal(buf, sysex, 100);
+	assert_int_equal(msg_queue_pop(&mq, &out, buf, sizeof buf), 1);
+	assert_int_equal(buf[0], 0xF8);
+	assert_int_equal(msg_queue_pop(&mq, &out, buf, sizeof buf), 0);
+
+	/* fill to the last slot: a 2-slot message no longer fits, a 1-slot one does */
+	size_t pushed = 0;
+	while (msg_queue_has_room(&mq, 3 * MSG_QUEUE_SLOT_BYTES)) {
+		uint8_t big[3 * MSG_QUEUE_SLOT_BYTES] = {0xF0};
+		big[sizeof big - 1] = 0xF7;
+		assert_true(msg_queue_push(&mq, 1, big, sizeof big));
+		pushed++;
+	}
+	assert_int_equal(pushed, MSG_QUEUE_SLOTS / 3);
+	size_t left = MSG_QUEUE_SLOTS - pushed * 3; /* 8192 = 3*2730 + 2 */
+	assert_int_equal(left, 2);
+	uint8_t three[3 * MSG_QUEUE_SLOT_BYTES] = {0};
+	assert_false(msg_queue_push(&mq, 1, three, sizeof three));
+	assert_true(msg_queue_push(&mq, 1, three, 2 * MSG_QUEUE_SLOT_BYTES));
+	assert_false(msg_queue_push(&mq, 1, note, 3));
+	/* too long or empty never fits */
+	assert_false(msg_queue_has_room(&mq, 0));
+	assert_false(msg_queue_has_room(&mq, MSG_QUEUE_MESSAGE_MAX + 1));
+}
+
+struct mq_shared {
+	struct msg_queue q;
+	uint32_t refused;
+};
+
+/* message i: output i % 8, length 1 + i % 300, bytes derived from i */
+static size_t message_of(uint32_t i, uint8_t *buf)
+{
+	size_t length = 1 + i % 300;
+	for (size_t k = 0; k < length; k++)
+		buf[k] = (uint8_t)(i * 31 + k);
+	return length;
+}
+
+static void *mq_produce(void *arg)
+{
+	struct mq_shared *s = arg;
+	uint8_t buf[400];
+	for (uint32_t i = 0; i < ITEMS / 4;) {
+		size_t length = message_of(i, buf);
+		if (msg_queue_push(&s->q, (uint8_t)(i % 8), buf, length))
+			i++;
+		else
+			s->refused++;
+	}
+	return NULL;
+}
+
+static void message_threads_keep_order(void **state)
+{
+	(void)state;
+	static struct mq_shared s;
+	memset(&s, 0, sizeof s);
+	msg_queue_init(&s.q);
+	pthread_t producer;
+	assert_int_equal(pthread_create(&producer, NULL, mq_produce, &s), 0);
+	static uint8_t got[MSG_QUEUE_MESSAGE_MAX];
+	uint8_t want[400], out;
+	for (uint32_t i = 0; i < ITEMS / 4;) {
+		size_t n = msg_queue_pop(&s.q, &out, got, sizeof got);
+		if (n == 0)
+			continue;
+		size_t length = message_of(i, want);
+		if (n != length || out != i % 8 || memcmp(got, want, length) != 0)
+			fail_msg("message %u: %zu bytes for output %u, wanted %zu for %u", i, n, out,
+				 length, i % 8);
+		i++;
+	}
+	assert_int_equal(pthread_join(producer, NULL), 0);
+	assert_int_equal(msg_queue_pop(&s.q, &out, got, sizeof got), 0);
+}
+
+int main(void)
+{
+	const struct CMUnitTest tests[] = {
+		cmocka_unit_test(threads_keep_order_and_lose_nothing),
+		cmocka_unit_test(full_queue_refuses_and_keeps_items),
+		cmocka_unit_test(indices_wrap_around),
+		cmocka_unit_test(messages_whole_or_not_at_all),
+		cmocka_unit_test(message_threads_keep_order),
+	};
+	return cmocka_run_group_tests(tests, NULL, NULL);
+}
