@@ -19,10 +19,8 @@
 set -eu
 top=$(cd "$(dirname "$0")/.." && pwd)
 build=${1:-$top/build-bench}
-if [ ! -x "$build/bench/engine_bench" ] || [ ! -x "$build/latticed" ]; then
-	cmake -S "$top" -B "$build" -DCMAKE_BUILD_TYPE=RelWithDebInfo >/dev/null
-	cmake --build "$build" -j2 --target engine_bench latticed >/dev/null
-fi
+[ -f "$build/CMakeCache.txt" ] || cmake -S "$top" -B "$build" -DCMAKE_BUILD_TYPE=RelWithDebInfo >/dev/null
+cmake --build "$build" -j2 --target engine_bench latticed >/dev/null
 bench="$build/bench/engine_bench"
 latticed="$build/latticed"
 tmp=$(mktemp -d)
