@@ -116,9 +116,11 @@ void *realloc(void *p, size_t n)
 	if (window_open)
 		counted.realloc++;
 	if (is_bootstrap(p)) {
+		/* the block's size is not kept: copy what can lie behind it */
+		size_t behind = (size_t)(bootstrap + sizeof bootstrap - (unsigned char *)p);
 		void *q = malloc(n);
 		if (q)
-			memcpy(q, p, n < sizeof bootstrap ? n : sizeof bootstrap); /* never grows */
+			memcpy(q, p, n < behind ? n : behind);
 		return q;
 	}
 	return next_realloc(p, n);
