@@ -101,3 +101,16 @@ if [ -n "$rss_kb" ]; then
 else
 	echo "latticed render, $smf_bytes-byte SMF: $rss_note"
 fi
+
+# arm64 (the Raspberry Pi target) under qemu-user: events per second of the
+# same performance, EMULATED (qemu translates every instruction, so this is
+# no measure of a real Pi; it shows the arm64 build runs the same path).
+# The cross build comes from `tests/run-all.sh cross`.
+arm64_bench="$top/build-tests/cross-arm64/bench/engine_bench"
+echo
+if [ -x "$arm64_bench" ] && command -v qemu-aarch64 >/dev/null 2>&1; then
+	echo "arm64 engine_bench under qemu-aarch64 (QEMU_CPU=cortex-a72), emulated, not a Pi:"
+	QEMU_CPU=cortex-a72 qemu-aarch64 "$arm64_bench" | awk '{ printf "  %-6s %12s events/s (emulated)\n", $1, $6 }'
+else
+	echo "arm64: no cross build at $arm64_bench (run tests/run-all.sh cross first) or no qemu-aarch64"
+fi
