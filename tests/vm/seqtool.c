@@ -999,9 +999,12 @@ static int cmd_record(int argc, char **argv)
 
 	snd_seq_t *seq = client_open(name);
 	int queue = queue_start(seq);
-	int port = port_create(seq, portname, SND_SEQ_PORT_CAP_WRITE | SND_SEQ_PORT_CAP_SUBS_WRITE, queue);
+	/* Before the port exists: resizing the input pool empties it, and a
+	 * program that connects to a port the moment it appears (latticed)
+	 * may already have sent something. */
 	check(snd_seq_set_client_pool_input(seq, 1000), "cannot enlarge the input pool");
 	check(snd_seq_set_input_buffer_size(seq, 1 << 16), "cannot enlarge the input buffer");
+	int port = port_create(seq, portname, SND_SEQ_PORT_CAP_WRITE | SND_SEQ_PORT_CAP_SUBS_WRITE, queue);
 	check(snd_midi_event_new(16, &r.coder), "cannot create a MIDI coder");
 	snd_midi_event_no_status(r.coder, 1); /* every message with its status byte */
 	if (strcmp(args[0], "-")) {
