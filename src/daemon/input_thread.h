@@ -103,6 +103,8 @@ struct input_thread {
 	struct reply outbox[INPUT_OUTBOX_MAX];
 	int last_preset, last_root;
 	int64_t retired_checked_ms;
+	uint64_t inputs_lost, inputs_lost_logged; /* INPUT_LOST reports */
+	int64_t input_lost_logged_ms;
 	uint8_t encode_buffer[MSG_QUEUE_MESSAGE_MAX];
 };
 
