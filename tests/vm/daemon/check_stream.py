@@ -124,8 +124,11 @@ class Config:
     def __init__(self, path):
         p = configparser.ConfigParser(inline_comment_prefixes=(";",), comment_prefixes=(";", "#"),
                                       strict=False, interpolation=None)
-        with open(path) as f:
-            p.read_file(f)
+        try:
+            with open(path) as f:
+                p.read_file(f)
+        except (OSError, configparser.Error) as e:
+            raise SystemExit("check_stream.py: cannot read the config %s: %s" % (path, e))
         base = dict(LATTICE_DEFAULTS)
         for section in ("lattice", "pitch", "keys"):
             if p.has_section(section):

@@ -81,8 +81,24 @@ vm_check "the reload is logged" vm_wait_log $LOG 1 "^notice: reloaded $CONF: "
 vm_check "status counts it" status_until '"reloads": 1,' /tmp/status-reloaded.json
 touch /tmp/reloaded
 
+vm_step "ALSA: latticed stalls, its input queue overflows, a note-off is lost"
+vm_check "the player holds key 62" vm_wait_file /tmp/stall-note 30
+vm_check "  ... latticed has it" status_until '"notes_held": 1,' /tmp/status-stall.json
+kill -STOP "$vm_pid_daemon"
+# 3000 events in 30 ms: more than the 2000 latticed's queue holds
+awk 'BEGIN { print "0 B0 01 00"; for (i = 1; i < 3000; i++) printf "+0.01 01 %02X\n", i % 128 }' >/tmp/flood.txt
+vm_check "a flood player fills latticed's input queue" seqtool play --name Flood latticed:in /tmp/flood.txt
+touch /tmp/stalled
+vm_check "the player releases key 62 (into the full queue)" vm_wait_file /tmp/stall-done 30
+kill -CONT "$vm_pid_daemon"
+vm_check "latticed reads on and says what was lost and what it did" vm_wait_log $LOG 1 \
+	'^warning: input: events from every source were lost \(the input queue overflowed: latticed did not read in time\); 1 held note\(s\) ended so that none hangs \(1 time\(s\) so far\)$'
+vm_check "no note is left held" status_until '"notes_held": 0,' /tmp/status-resumed.json
+vm_check "status counts the overrun" grep -q 'input overruns: 1 (events lost' /tmp/status-resumed.json
+touch /tmp/resumed
+
 vm_step "ALSA: the synth goes away and comes back"
-vm_check "the player released everything" vm_wait_file /tmp/part4-done 30
+vm_check "the player released everything" vm_wait_file /tmp/part5-done 30
 vm_check "the synth stops (its port disappears)" vm_stop rec1
 vm_check "latticed sees it go" vm_wait_log $LOG 1 '^notice: output synth: Synth:in went away; nothing listens now$'
 vm_start rec2 seqtool record --name Synth --port in - "$OUT/synth-2.txt" --seconds 240 --ready /tmp/rec2.ready
