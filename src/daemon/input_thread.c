@@ -235,13 +235,6 @@ bool input_thread_init(struct input_thread *t, const struct config *cfg,
 	return true;
 }
 
-void input_thread_start_outputs(struct input_thread *t)
-{
-	for (int i = 0; i < t->output_count; i++)
-		engine_start(&t->outputs[i].engine);
-	wake_others(t);
-}
-
 /* ---- requests and replies -------------------------------------------------- */
 
 bool input_thread_post(struct input_thread *t, const struct request *r)

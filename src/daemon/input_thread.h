@@ -120,9 +120,6 @@ bool input_thread_init(struct input_thread *t, const struct config *cfg,
 /* The callbacks the backend must be opened with (context = t). */
 struct midi_io_callbacks input_thread_callbacks(struct input_thread *t);
 
-/* Sends every output's synth set-up (engine_start); before the thread runs. */
-void input_thread_start_outputs(struct input_thread *t);
-
 /* Runs the loop; returns when a REQUEST_QUIT has been handled. */
 void *input_thread_run(void *arg);
 
