@@ -15,7 +15,7 @@ came).  "# check:" lines in PERF say what happened between two of its steps:
 every key's just-intonation pitch from CONF with fractions.Fraction,
 decodes the recordings as a synth would, and checks:
   - every synth gets the set-up first: RPN 0 (the bend range) on every
-    channel of the pool, before any note;
+    channel of the pool, before any note, and once;
   - the k-th note-on that comes out answers the k-th note the player played,
     and sounds at that key's exact JI pitch in the tuning chosen at that
     moment, plus the player's wheel, within half a bend step;
@@ -295,6 +295,8 @@ class Synth:
         self.bend = [8192] * 16
         self.range = [2.0] * 16          # MIDI 1.0 default until RPN 0 says otherwise
         self.range_set = [False] * 16
+        self.setups = [0] * 16           # RPN 0 before the first note: the set-up
+        self.played = False
         self.rpn = [(127, 127)] * 16
         self.sustain = [False] * 16
         self.down = {}                   # (ch, key) -> Note
@@ -338,6 +340,7 @@ class Synth:
                 return
             note = self.expect.notes[st["next"]]
             st["next"] += 1
+            self.played = True
             check((ch, key) not in self.down and (ch, key) not in self.ringing,
                   "%s: note-on on channel %d key %d, which sounds already" % (self.where(number), ch + 1, key))
             note.out = (ch, key)
@@ -373,6 +376,8 @@ class Synth:
             elif cc == 6 and self.rpn[ch] == (0, 0):
                 self.range[ch] = float(v)
                 self.range_set[ch] = True
+                if not self.played:
+                    self.setups[ch] += 1
                 check(v == self.cfg.bend_range, "%s: RPN 0 sets %d semitones on channel %d, not %d"
                       % (self.where(number), v, ch + 1, self.cfg.bend_range))
             elif cc == 38 and self.rpn[ch] == (0, 0):
@@ -468,6 +473,9 @@ def main():
         synth.finish()
         missing = [c + 1 for c in cfg.pool if not synth.range_set[c]]
         check(not missing, "%s: no RPN 0 set-up on channel(s) %s" % (rec, missing))
+        # latticed sends the set-up once per connection (latticed(8) run)
+        twice = [c + 1 for c in cfg.pool if synth.setups[c] > 1]
+        check(not twice, "%s: the set-up came more than once on channel(s) %s" % (rec, twice))
         ok("%s: %d messages decoded" % (rec, messages))
     check(state["next"] == len(expect.notes), "%d of the player's %d notes came out"
           % (state["next"], len(expect.notes)))
