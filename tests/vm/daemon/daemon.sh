@@ -17,9 +17,9 @@ sed 's/^root_hz = 220$/root_hz = 231/' daemon.conf >"$OUT/daemon-reload.conf"
 awk '{ print } /^seeds = 1 3 5 7 9$/ { print "choose = 9" }' daemon.conf >"$OUT/daemon-broken.conf"
 broken_line=$(grep -n '^choose = 9$' "$OUT/daemon-broken.conf" | cut -d: -f1)
 
-# status_until RE FILE: `latticed status --json` into FILE until it matches RE (5 s)
+# status_until RE FILE: `latticed status --json` into FILE until it matches RE (10 s)
 status_until() {
-	left=100
+	left=200
 	until latticed status --json --config "$CONF" >"$2" 2>&1 && grep -qE "$1" "$2"; do
 		[ "$left" -gt 0 ] || { echo "status_until: '$1' not in:"; cat "$2"; return 1; }
 		usleep 50000
