@@ -559,8 +559,9 @@ def main():
             r = subprocess.run([BIN, "run", "--config", conf, "--backend", "alsa"],
                                capture_output=True, text=True, timeout=10)
             lines = r.stderr.splitlines()
-            check(r.returncode == 1 and len(lines) == 1 and lines[0].startswith("error: "),
-                  "no sequencer: one error line and exit 1 (%r)" % r.stderr)
+            check(r.returncode == 1 and len(lines) == 1 and lines[0].startswith("error: ") and
+                  "/dev/snd/seq" in lines[0] and "modprobe snd-seq" in lines[0],
+                  "no sequencer: one error line naming /dev/snd/seq and the fix, exit 1 (%r)" % r.stderr)
         with open(conf, "w") as f:
             f.write(good)
         if WITH_SYSTEMD:

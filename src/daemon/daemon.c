@@ -3,9 +3,11 @@
  *
  * Start-up, in order (teardown is the reverse): config and tunings,
  * backend choice, the queues and eventfds, the engines, the backend's
- * ports, the control socket, memory locking, the synth set-up, then the
- * two MIDI threads (signals blocked in them) at real-time priority, and
- * READY=1.  Any failure before the threads start is one line naming what
+ * ports, the control socket, memory locking, then the two MIDI threads
+ * (signals blocked in them) at real-time priority, and READY=1.  Each
+ * output's synth set-up goes out when the backend reports it connected
+ * (the first service_input reports what open() connected), so a synth
+ * gets it once per connection.  Any failure before the threads start is one line naming what
  * and how to fix it, and exit status 1.
  *
  * The loop sleeps in ppoll() on its eventfd (the MIDI threads write it
@@ -699,7 +701,6 @@ int daemon_run(const struct daemon_options *options)
 		realtime_lock_memory();
 
 	install_signals(&d);
-	input_thread_start_outputs(d.in);
 	if (!start_threads(&d))
 		goto out_control;
 

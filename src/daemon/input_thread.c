@@ -108,11 +108,51 @@ static void on_input(void *context, uint8_t source, const uint8_t *bytes, size_t
 	wake_others(t); /* the first note of a chord goes before the parser reads on */
 }
 
+/*
+ * The backend lost input events (a queue overflowed: we did not read in
+ * time).  Any of them may have been a note-off or a pedal let go, so the
+ * notes of the sources concerned are ended, as if their device had gone,
+ * rather than left to hang until a panic.  Keys still down sound again
+ * when pressed again.
+ */
+static void input_lost(struct input_thread *t, int index, const char *what)
+{
+	int ended = 0;
+	for (int s = 0; s < MIDI_IO_MAX_SOURCES; s++) {
+		if (index >= 0 && s != index)
+			continue;
+		midi_parser_reset(&t->sources[s].parser); /* a SysEx may have lost its end */
+		for (int k = 0; k < t->output_count; k++) {
+			ended += t->outputs[k].engine.note_count;
+			engine_end_source(&t->outputs[k].engine, (uint8_t)s);
+			ended -= t->outputs[k].engine.note_count;
+		}
+	}
+	t->inputs_lost++;
+	int64_t now = monotonic_ms();
+	if (t->inputs_lost_logged && now - t->input_lost_logged_ms < DROP_LOG_INTERVAL_MS)
+		return;
+	char from[MIDI_IO_NAME_MAX * 2 + 8];
+	if (index < 0 || !what[0])
+		snprintf(from, sizeof from, "every source");
+	else
+		snprintf(from, sizeof from, "%s", what);
+	log_ring_post(&t->log, LOG_LEVEL_WARNING,
+		      "input: events from %s were lost (the input queue overflowed: latticed did not read in "
+		      "time); %d held note(s) ended so that none hangs (%llu time(s) so far)",
+		      from, ended, (unsigned long long)t->inputs_lost);
+	t->inputs_lost_logged = t->inputs_lost;
+	t->input_lost_logged_ms = now;
+}
+
 static void on_event(void *context, enum midi_io_event kind, int index, const char *name)
 {
 	struct input_thread *t = context;
 	const char *what = name ? name : "";
-	if (kind == MIDI_IO_SOURCE_CONNECTED || kind == MIDI_IO_SOURCE_GONE) {
+	if (kind == MIDI_IO_INPUT_LOST) {
+		if (index < MIDI_IO_MAX_SOURCES)
+			input_lost(t, index, what);
+	} else if (kind == MIDI_IO_SOURCE_CONNECTED || kind == MIDI_IO_SOURCE_GONE) {
 		if (index < 0 || index >= MIDI_IO_MAX_SOURCES)
 			return;
 		struct input_source *s = &t->sources[index];
@@ -190,14 +230,9 @@ bool input_thread_init(struct input_thread *t, const struct config *cfg,
 	atomic_init(&t->heartbeat, 0);
 	t->last_preset = 0;
 	t->last_root = 0;
+	t->inputs_lost = t->inputs_lost_logged = 0;
+	t->input_lost_logged_ms = 0;
 	return true;
-}
-
-void input_thread_start_outputs(struct input_thread *t)
-{
-	for (int i = 0; i < t->output_count; i++)
-		engine_start(&t->outputs[i].engine);
-	wake_others(t);
 }
 
 /* ---- requests and replies -------------------------------------------------- */

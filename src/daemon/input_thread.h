@@ -103,6 +103,8 @@ struct input_thread {
 	struct reply outbox[INPUT_OUTBOX_MAX];
 	int last_preset, last_root;
 	int64_t retired_checked_ms;
+	uint64_t inputs_lost, inputs_lost_logged; /* INPUT_LOST reports */
+	int64_t input_lost_logged_ms;
 	uint8_t encode_buffer[MSG_QUEUE_MESSAGE_MAX];
 };
 
@@ -117,9 +119,6 @@ bool input_thread_init(struct input_thread *t, const struct config *cfg,
 
 /* The callbacks the backend must be opened with (context = t). */
 struct midi_io_callbacks input_thread_callbacks(struct input_thread *t);
-
-/* Sends every output's synth set-up (engine_start); before the thread runs. */
-void input_thread_start_outputs(struct input_thread *t);
 
 /* Runs the loop; returns when a REQUEST_QUIT has been handled. */
 void *input_thread_run(void *arg);

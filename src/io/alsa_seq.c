@@ -32,8 +32,9 @@
  * last notes before its GONE.  The kernel tells both the owner of a port and
  * the announce subscribers about a subscription, so every notice may come
  * twice; handling is idempotent.  When our input queue overflows the kernel
- * empties it (-ENOSPC) and notices may be lost: the state is then rebuilt
- * from the kernel's subscription lists.
+ * empties it (-ENOSPC): that is reported (INPUT_LOST for every source, as
+ * note-offs may be gone), and as notices may be lost too, the state is
+ * rebuilt from the kernel's subscription lists.
  *
  * Outputs.  After any notice that concerns an output, its destinations are
  * read from the kernel and compared with the last list: each new one is
@@ -468,8 +469,10 @@ static void alsa_service_input(struct midi_io *io)
 		if (r == -EAGAIN)
 			break;
 		if (r == -ENOSPC) {
+			/* the kernel emptied our whole queue: from every source */
 			io->overruns++;
 			io->resync = true;
+			report(io, MIDI_IO_INPUT_LOST, -1, "");
 			continue;
 		}
 		if (r < 0 || ev == NULL)

@@ -15,7 +15,8 @@
  *     service_input() reads everything pending and reports it through the
  *     callbacks: raw MIDI bytes per source, in arrival order (SysEx may
  *     come in several pieces; the daemon's parser per source joins them),
- *     and connection events.  Hotplug (a matching port appearing) is
+ *     connection events, and INPUT_LOST where a queue overflowed (the
+ *     events lost cannot be named, only that there were some).  Hotplug (a matching port appearing) is
  *     handled inside service_input().  Callbacks are only ever called from
  *     service_input(): connections made by open() are reported by the
  *     first call.
@@ -48,6 +49,9 @@ enum midi_io_event {
 	MIDI_IO_SOURCE_GONE,        /* index = source: end the notes it started */
 	MIDI_IO_OUTPUT_CONNECTED,   /* index = output: send its set-up again */
 	MIDI_IO_OUTPUT_GONE,        /* index = output: nothing listens now */
+	MIDI_IO_INPUT_LOST,         /* index = source, or -1 for every source: an
+	                             * input queue overflowed and events were lost;
+	                             * any of them may have been a note-off */
 };
 
 struct midi_io_callbacks {

@@ -443,6 +443,7 @@ static void pm_service_input(struct midi_io *io)
 			int got = Pm_Read(in->stream, pending[n].events, READ_CHUNK);
 			if (got == pmBufferOverflow) {
 				io->overruns++;
+				queue_report(io, MIDI_IO_INPUT_LOST, in->source, io->sources.name[in->source]);
 				more = true;
 				continue;
 			}

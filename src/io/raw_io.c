@@ -60,7 +60,7 @@ struct raw_output {
 	enum raw_kind kind;
 	atomic_int fd;               /* see the thread rule above */
 	atomic_bool gone;            /* output thread saw the reader go */
-	bool reported_connected;     /* input thread's */
+	bool reported_connected;     /* input thread's: OUTPUT_CONNECTED told for this fd */
 	/* output thread's */
 	size_t pending_length;
 	uint8_t pending[RAW_PENDING_MAX];
@@ -134,8 +134,8 @@ static struct midi_io *raw_open(const struct midi_io_spec *spec,
 			goto fail;
 		}
 		if (fd >= 0) {
+			/* reported by the first service_input (midi_io.h) */
 			out->kind = kind_of(fd);
-			out->reported_connected = true;
 		} else {
 			out->kind = RAW_FIFO; /* ENXIO: a FIFO without a reader */
 		}
@@ -234,17 +234,19 @@ static void service_outputs(struct midi_io *io)
 			if (io->callbacks.event)
 				io->callbacks.event(io->callbacks.context, MIDI_IO_OUTPUT_GONE, i, out->path);
 		}
-		if (atomic_load_explicit(&out->fd, memory_order_acquire) >= 0)
-			continue;
-		int fd = open_output_fd(out->path);
-		if (fd < 0)
-			continue;
-		out->kind = kind_of(fd);
-		int expected = -1;
-		if (!atomic_compare_exchange_strong(&out->fd, &expected, fd)) {
-			close(fd); /* cannot happen: only this thread fills a -1 */
-			continue;
+		if (atomic_load_explicit(&out->fd, memory_order_acquire) < 0) {
+			int fd = open_output_fd(out->path);
+			if (fd < 0)
+				continue;
+			out->kind = kind_of(fd);
+			int expected = -1;
+			if (!atomic_compare_exchange_strong(&out->fd, &expected, fd)) {
+				close(fd); /* cannot happen: only this thread fills a -1 */
+				continue;
+			}
 		}
+		if (out->reported_connected)
+			continue;
 		out->reported_connected = true;
 		if (io->callbacks.event)
 			io->callbacks.event(io->callbacks.context, MIDI_IO_OUTPUT_CONNECTED, i, out->path);

@@ -10,7 +10,7 @@
  *       sent to output 0 unchanged (a loopback through the interface).
  *       Prints one line per connection event ("source-connected 0 NAME",
  *       "source-gone 0 NAME", "output-connected 0 NAME", "output-gone 0
- *       NAME"), describe() on SIGUSR1, and totals at the end (SIGTERM,
+ *       NAME", "input-lost -1 " after an overflow), describe() on SIGUSR1, and totals at the end (SIGTERM,
  *       SIGINT or after S seconds, default 120).  SIGUSR2 makes the input
  *       thread stop reading for --pause seconds (default 4), so that the
  *       kernel's input queue can overflow.
@@ -227,7 +227,7 @@ static void on_input(void *context, uint8_t source, const uint8_t *bytes, size_t
 static void on_event(void *context, enum midi_io_event kind, int index, const char *name)
 {
 	static const char *const names[] = { "source-connected", "source-gone", "output-connected",
-					      "output-gone" };
+					      "output-gone", "input-lost" };
 	(void)context;
 	printf("%s %d %s\n", names[kind], index, name);
 	if (kind == MIDI_IO_SOURCE_CONNECTED)

@@ -15,7 +15,8 @@
 #   --add FILE       copy one file into /test (repeatable)
 #   --env NAME=VAL   set a variable for COMMAND (repeatable)
 #   --out DIR        after COMMAND, copy the guest's /out folder to DIR on
-#                    the host (through a raw virtio disk holding a tar file)
+#                    the host (through a raw virtio disk holding a tar file);
+#                    what an earlier run left in DIR is removed first
 #   --out-size MB    size of that disk (default 64)
 #   --timeout S      whole run, boot to power-off (default 300)
 #   --log-dir DIR    keep console.log (kernel console), payload.log (COMMAND's
@@ -32,7 +33,8 @@
 # could not be built or did not boot or COMMAND's end was never reported
 # (the tail of the kernel console is printed then).
 #
-# Environment: LATTICED_VM_CACHE (see prepare.sh), LATTICED_VM_ACCEL=tcg|kvm|auto
+# Environment: LATTICED_VM_KERNEL_ARGS (added to the kernel command line),
+# LATTICED_VM_CACHE (see prepare.sh), LATTICED_VM_ACCEL=tcg|kvm|auto
 # (default auto: KVM only when the CPU shows vmx/svm and /dev/kvm opens, with
 # a boot watchdog that falls back to TCG).
 set -eu
@@ -112,6 +114,17 @@ fi
 root="$work/root"
 rm -rf "$root" "$work/console.log" "$work/payload.log" "$work/out.img"
 mkdir -p "$root"
+# Results of an earlier run must not pass for this one's.  Only a folder
+# this script filled (it holds the marker, or is the log folder's out/) is
+# emptied.
+if [ -n "$outdir" ] && [ -d "$outdir" ]; then
+	if [ -e "$outdir/.latticed-vm-out" ] || { [ -n "$logdir" ] &&
+		[ "$(cd "$outdir" && pwd)" = "$work/out" ]; }; then
+		find "$outdir" -mindepth 1 -delete
+	elif [ -n "$(ls -A "$outdir")" ]; then
+		die "--out $outdir holds files of something else; give an empty or new folder"
+	fi
+fi
 qemu_pid=""
 tail_pid=""
 cleanup() {
@@ -255,11 +268,19 @@ boot() {
 	[ -n "$outdir" ] && drive="-drive file=$work/out.img,format=raw,if=virtio,cache=unsafe"
 	cpu="-cpu max"
 	[ "$1" = kvm ] && cpu="-cpu host"
+	# Under TCG the kernel falls back to the HPET clocksource, every clock
+	# read an emulated device access, and its CPU-bug mitigations (page
+	# table isolation above all) flush qemu's TLB on every system call;
+	# together they made each sequencer event cost several times what it
+	# does with the TSC and without them (tests/vm/README.md).  The VM
+	# holds nothing to protect.
+	kargs="mitigations=off"
+	[ "$1" = tcg ] && kargs="$kargs tsc=reliable clocksource=tsc"
 	# shellcheck disable=SC2086
 	timeout -k 5 "$timeout" qemu-system-x86_64 -M pc -accel "$1" $cpu -m "$mem" -smp "$smp" \
 		-nodefaults -display none -no-reboot -no-user-config \
 		-kernel "$vmlinux" -initrd "$work/initrd.cpio" \
-		-append "console=ttyS0 quiet panic=-1 rdinit=/init" \
+		-append "console=ttyS0 quiet panic=-1 rdinit=/init $kargs ${LATTICED_VM_KERNEL_ARGS:-}" \
 		-serial "file:$work/console.log" -serial "file:$work/payload.log" \
 		$drive >"$work/qemu.log" 2>&1 &
 	qemu_pid=$!
@@ -342,6 +363,7 @@ fi
 
 if [ -n "$outdir" ]; then
 	mkdir -p "$outdir"
+	: >"$outdir/.latticed-vm-out"
 	tar -xf "$work/out.img" -C "$outdir" || {
 		echo "$prog: error: could not unpack the output disk" >&2
 		keep=1

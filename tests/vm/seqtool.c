@@ -19,6 +19,11 @@
  *   TIME BYTES...    raw MIDI bytes in hex ("90 3C 64" or "903C64")
  *   TIME vanish      close the client: its ports disappear mid-performance
  *   TIME reappear    open it again under the same names
+ *   TIME mark FILE   once everything before is delivered, create FILE
+ *   TIME await FILE  wait until FILE exists; the performance's clock
+ *                    stands still meanwhile (later times are relative)
+ * mark and await let a test script act at a known point of a performance
+ * (send a signal while a chord is held) and let the player go on after.
  * TIME is in milliseconds from the start of the performance, or "+N" for N
  * after the step before.  A line holds whole messages; running status
  * carries over from the line before (MIDI 1.0 running status; cleared by
@@ -56,6 +61,8 @@
 #define DEFAULT_SYSEX_CHUNK 256
 #define LINE_BYTES_MAX (1 << 20)
 #define PLAY_LEAD_MS 50
+/* How long `await FILE` waits before the player gives up. */
+#define AWAIT_SECONDS 120
 
 static volatile sig_atomic_t stop_requested;
 
@@ -291,12 +298,12 @@ static const char *split_line(struct splitter *sp, const unsigned char *b, size_
  * Performance files.
  */
 
-enum step_kind { STEP_MIDI, STEP_VANISH, STEP_REAPPEAR };
+enum step_kind { STEP_MIDI, STEP_VANISH, STEP_REAPPEAR, STEP_MARK, STEP_AWAIT };
 
 struct step {
 	enum step_kind kind;
 	double ms;
-	size_t off, len;        /* one message in perf.bytes */
+	size_t off, len;        /* one message in perf.bytes; for mark/await the file name */
 	unsigned line;
 };
 
@@ -394,7 +401,22 @@ static void perf_load(struct perf *p, const char *path)
 
 		tok = strtok_r(NULL, " \t\r\n", &save);
 		if (!tok)
-			perf_fault(p, "expected MIDI bytes, 'vanish' or 'reappear' after the time");
+			perf_fault(p, "expected MIDI bytes, 'vanish', 'reappear', 'mark' or 'await' after the time");
+		if (!strcmp(tok, "mark") || !strcmp(tok, "await")) {
+			bool mark = !strcmp(tok, "mark");
+			char *file = strtok_r(NULL, " \t\r\n", &save);
+			if (!file)
+				perf_fault(p, "'%s' needs a file name", tok);
+			if (strtok_r(NULL, " \t\r\n", &save))
+				perf_fault(p, "nothing may follow '%s FILE'", tok);
+			struct step *s = perf_add(p, mark ? STEP_MARK : STEP_AWAIT);
+			size_t len = strlen(file) + 1;
+			p->bytes = grow(p->bytes, &p->bytecap, p->nbytes + len, 1);
+			memcpy(p->bytes + p->nbytes, file, len);
+			p->nbytes += len;
+			s->len = len;
+			continue;
+		}
 		if (!strcmp(tok, "vanish") || !strcmp(tok, "reappear")) {
 			bool vanish = !strcmp(tok, "vanish");
 			if (strtok_r(NULL, " \t\r\n", &save))
@@ -817,6 +839,32 @@ static int cmd_play(int argc, char **argv)
 			sleep_until_ms(p.t0 + s->ms);
 			player_open(&p);
 			break;
+		case STEP_MARK: {
+			const char *file = (const char *)perf.bytes + s->off;
+			if (p.seq)
+				player_sync(&p);
+			sleep_until_ms(p.t0 + s->ms);
+			FILE *f = fopen(file, "w");
+			if (!f || fclose(f))
+				die(EXIT_FAIL, "%s:%u: cannot create %s: %s", perf.path, s->line, file, strerror(errno));
+			break;
+		}
+		case STEP_AWAIT: {
+			const char *file = (const char *)perf.bytes + s->off;
+			sleep_until_ms(p.t0 + s->ms);
+			double deadline = now_ms() + AWAIT_SECONDS * 1e3;
+			while (access(file, F_OK) != 0 && !stop_requested) {
+				if (now_ms() >= deadline)
+					die(EXIT_FAIL, "%s:%u: %s did not appear within %d s", perf.path, s->line, file,
+					    AWAIT_SECONDS);
+				pause_ms(10);
+			}
+			/* the clock stood still: later steps keep their distance from this one */
+			double late = now_ms() - (p.t0 + s->ms);
+			if (late > 0)
+				p.t0 += late;
+			break;
+		}
 		}
 	}
 	if (p.seq)
@@ -951,9 +999,12 @@ static int cmd_record(int argc, char **argv)
 
 	snd_seq_t *seq = client_open(name);
 	int queue = queue_start(seq);
-	int port = port_create(seq, portname, SND_SEQ_PORT_CAP_WRITE | SND_SEQ_PORT_CAP_SUBS_WRITE, queue);
+	/* Before the port exists: resizing the input pool empties it, and a
+	 * program that connects to a port the moment it appears (latticed)
+	 * may already have sent something. */
 	check(snd_seq_set_client_pool_input(seq, 1000), "cannot enlarge the input pool");
 	check(snd_seq_set_input_buffer_size(seq, 1 << 16), "cannot enlarge the input buffer");
+	int port = port_create(seq, portname, SND_SEQ_PORT_CAP_WRITE | SND_SEQ_PORT_CAP_SUBS_WRITE, queue);
 	check(snd_midi_event_new(16, &r.coder), "cannot create a MIDI coder");
 	snd_midi_event_no_status(r.coder, 1); /* every message with its status byte */
 	if (strcmp(args[0], "-")) {
@@ -1125,6 +1176,7 @@ struct lat_opts {
 	unsigned char probe[3], release[3], filler[3];
 	const char *phases;
 	double wait_s;
+	double max_s;           /* a phase ends after this long, measured or not */
 };
 
 struct filler {
@@ -1132,7 +1184,7 @@ struct filler {
 	snd_seq_addr_t dest;
 	atomic_bool stop;
 	atomic_bool ready;
-	unsigned long sent;
+	unsigned long sent, refused;
 	double seconds;
 };
 
@@ -1162,10 +1214,19 @@ static void *filler_run(void *arg)
 			snd_seq_ev_set_source(&ev, port);
 			snd_seq_ev_set_subs(&ev);
 			snd_seq_ev_set_direct(&ev);
-			check(snd_seq_event_output(seq, &ev), "filler cannot send");
+			/* -EAGAIN: the receiver's input pool is full, it has fallen
+			 * behind; that is a result, not a failure of the tool */
+			int err = snd_seq_event_output(seq, &ev);
+			if (err == -EAGAIN) {
+				f->refused++;
+				continue;
+			}
+			check(err, "filler cannot send");
 			f->sent++;
 		}
-		check(snd_seq_drain_output(seq), "filler cannot send");
+		int err = snd_seq_drain_output(seq);
+		if (err != -EAGAIN)
+			check(err, "filler cannot send");
 		next += 1;
 		sleep_until_ms(next);
 	}
@@ -1282,7 +1343,9 @@ static void lat_phase(struct lat_client *c, const struct lat_opts *o, snd_seq_ad
 	}
 	c->overruns = 0;
 	double next = now_ms();
-	for (long i = 0; i < o->count && !stop_requested; i++) {
+	double give_up = next + o->max_s * 1e3;
+	long tried = 0;
+	for (long i = 0; i < o->count && !stop_requested && now_ms() < give_up; i++, tried++) {
 		double sent = -1, p, r;
 		while (now_ms() < next) {
 			double unused = -1;
@@ -1306,10 +1369,16 @@ static void lat_phase(struct lat_client *c, const struct lat_opts *o, snd_seq_ad
 	lat_collect(c, 50, &dummy, &dummy, &dummy);
 	qsort(path, got, sizeof(double), cmp_double);
 	qsort(read, got, sizeof(double), cmp_double);
-	printf("%-7s %7zu %5ld %9.0f %11.3f %10.3f %8.3f %11.3f %10.3f %8.3f %8lu\n", loaded ? "loaded" : "idle",
+	printf("%-7s %7zu %5ld %9.0f %11.4f %10.4f %8.3f %11.4f %10.4f %8.3f %8lu\n", loaded ? "loaded" : "idle",
 	       got, lost, loaded && f.seconds > 0 ? f.sent / f.seconds : 0.0,
 	       percentile(path, got, 50), percentile(path, got, 99.9), got ? path[got - 1] : NAN,
 	       percentile(read, got, 50), percentile(read, got, 99.9), got ? read[got - 1] : NAN, c->overruns);
+	if (f.refused)
+		printf("# %s: the route refused %lu filler events (its receiver fell behind)\n",
+		       loaded ? "loaded" : "idle", f.refused);
+	if (tried < o->count && !stop_requested)
+		printf("# %s: stopped after %g s with %ld of %ld probes sent\n", loaded ? "loaded" : "idle",
+		       o->max_s, tried, o->count);
 	fflush(stdout);
 	free(path);
 	free(read);
@@ -1329,11 +1398,13 @@ static void parse_msg3(const char *opt, const char *s, unsigned char out[3])
 
 static int cmd_latency(int argc, char **argv)
 {
-	struct lat_opts o = { .count = 2000, .interval_ms = 2, .filler_rate = 10000, .phases = "both", .wait_s = 5 };
+	struct lat_opts o = { .count = 2000, .interval_ms = 2, .filler_rate = 10000, .phases = "both", .wait_s = 5,
+			      .max_s = -1 };
 	const char *args[2];
 	int nargs = 0;
 	const char *usage = "usage: seqtool latency [--count N] [--interval MS] [--filler-rate N] [--phases idle|loaded|both]\n"
-			    "       [--probe HEX3] [--release HEX3] [--filler HEX3] [--wait S] TO FROM | --direct";
+			    "       [--probe HEX3] [--release HEX3] [--filler HEX3] [--wait S] [--max-seconds S]\n"
+			    "       TO FROM | --direct";
 
 	parse_msg3("--probe", "90 3C 64", o.probe);
 	parse_msg3("--release", "80 3C 40", o.release);
@@ -1355,6 +1426,8 @@ static int cmd_latency(int argc, char **argv)
 			parse_msg3("--filler", argv[++i], o.filler);
 		else if (!strcmp(argv[i], "--wait") && i + 1 < argc)
 			o.wait_s = opt_double("--wait", argv[++i]);
+		else if (!strcmp(argv[i], "--max-seconds") && i + 1 < argc)
+			o.max_s = opt_double("--max-seconds", argv[++i]);
 		else if (!strcmp(argv[i], "--direct"))
 			o.direct = true;
 		else if (argv[i][0] != '-' && nargs < 2)
@@ -1364,6 +1437,10 @@ static int cmd_latency(int argc, char **argv)
 	}
 	if (o.direct ? nargs != 0 : nargs != 2)
 		die(EXIT_USAGE, "%s", usage);
+	/* A route that cannot keep up loses probes, each waited for 1 s: the
+	 * phase still ends, by default after five times its planned length. */
+	if (o.max_s <= 0)
+		o.max_s = fmax(10, 5 * o.count * o.interval_ms / 1e3);
 	if ((o.probe[0] & 0xF0) != 0x90 || o.probe[2] == 0)
 		die(EXIT_USAGE, "--probe must be a Note On with a velocity above 0");
 	if ((o.filler[0] & 0xF0) == 0x90)

@@ -114,6 +114,7 @@ kill -USR2 "$vm_pid_probe"
 vm_check "io_probe stops reading" wait_log 1 '^pause: 4 s$'
 vm_check "the flood player finishes and leaves" vm_wait flood
 vm_check "io_probe reads again" wait_log 1 '^pause: over$' 10
+vm_check "the loss is reported for every source (INPUT_LOST -1)" wait_log 1 '^input-lost -1 $' 5
 vm_check "its source is reported gone all the same (held notes get ended)" \
 	wait_log 1 '^source-gone 0 Flood:out$' 5
 describe

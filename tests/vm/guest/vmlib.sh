@@ -7,6 +7,8 @@
 #   vm_stop NAME              SIGTERM it, wait for it, print its log; returns its status
 #   vm_wait NAME              wait for it to end by itself, print its log; returns its status
 #   vm_wait_file FILE [S]     wait up to S seconds (default 10) for FILE to exist
+#   vm_wait_log FILE N RE [S] wait up to S seconds (default 10) until N lines of FILE
+#                             match the extended regular expression RE
 #   vm_finish                 print "N passed, N failed"; exit 1 if any failed
 #
 # The whole busybox userland is there (sh, awk, grep, diff, cmp, ...), plus
@@ -66,6 +68,19 @@ vm_wait_file() {
 	while [ ! -e "$1" ]; do
 		[ "$vm_left" -gt 0 ] || { echo "vm_wait_file: no $1 after ${2:-10} s"; return 1; }
 		usleep 20000
+		vm_left=$((vm_left - 1))
+	done
+}
+
+vm_wait_log() {
+	vm_left=$(( ${4:-10} * 20 ))
+	while vm_n=$(grep -cE "$3" "$1" 2>/dev/null); [ "${vm_n:-0}" -lt "$2" ]; do
+		if [ "$vm_left" -le 0 ]; then
+			echo "vm_wait_log: '$3' not seen $2 times in $1 within ${4:-10} s; its end:"
+			tail -n 15 "$1"
+			return 1
+		fi
+		usleep 50000
 		vm_left=$((vm_left - 1))
 	done
 }
