@@ -21,6 +21,7 @@
 #include <string.h>
 #include <time.h>
 
+#include "engine_fixture.h"
 #include "latticed/engine.h"
 #include "latticed/midi_encoder.h"
 #include "latticed/midi_parser.h"
@@ -226,51 +227,20 @@ static struct engine_tunings tunings;
 
 static void build_tunings(void)
 {
-	struct lattice_spec s;
-	memset(&s, 0, sizeof s);
 	static const char *const seeds[] = {"1", "3", "5", "7"};
-	s.seed_count = 4;
-	for (int i = 0; i < 4; i++) {
-		ratio_parse(seeds[i], &s.seeds[i]);
-		snprintf(s.seed_text[i], sizeof s.seed_text[i], "%s", seeds[i]);
-	}
-	s.choose = 2;
-	s.period.num = 2;
-	s.period.den = 1;
-	struct keymap_spec k;
-	memset(&k, 0, sizeof k);
-	k.layout = KEY_LAYOUT_SEQUENTIAL;
-	k.root_key = 57;
-	k.root_hz = 220.0;
 	struct core_error err;
-	if (!lattice_build(&lattice, &s, &err) || !keymap_build(&keymap, &lattice, &k, &err)) {
+	if (!fixture_preset(&lattice, &keymap, &tunings.presets[0], "hexany", seeds, 4, 57, 220.0, &err)) {
 		fprintf(stderr, "engine_bench: %s\n", err.text);
 		exit(1);
 	}
 	tunings.count = 1;
-	snprintf(tunings.presets[0].name, sizeof tunings.presets[0].name, "hexany");
-	tunings.presets[0].lattice = &lattice;
-	tunings.presets[0].keymap = &keymap;
 }
 
 static struct engine_spec spec_for(enum retune_method method)
 {
-	struct engine_spec s;
-	memset(&s, 0, sizeof s);
-	s.output.method = method;
-	s.output.channels = method == RETUNE_MTS ? 0x0001 : 0xFDFE;
-	s.output.bend_range = method == RETUNE_MPE ? 48 : 2;
-	s.output.bend_played = 1.0;
-	s.output.polyphony = POLY_SHARE_THEN_STEAL;
-	s.output.mts_device = 0x7F;
-	s.output.mts_bank = -1;
-	s.output.mpe_members = 15;
-	s.input.channels = 0x0001;
-	s.input.wheel_range_cents = 200.0;
-	s.input.mpe_bend_range = 48;
-	s.control.channel = -1;
-	s.control.preset_cc = s.control.root_cc = -1;
-	s.control.preset_keys = s.control.root_keys = -1;
+	struct engine_spec s = fixture_spec(method);
+	if (method == RETUNE_MTS)
+		s.output.channels = 0x0001;
 	return s;
 }
 

@@ -26,6 +26,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "engine_fixture.h"
 #include "latticed/engine.h"
 #include "latticed/midi_encoder.h"
 #include "latticed/midi_parser.h"
@@ -180,27 +181,11 @@ static struct engine_tunings tunings;
 
 static void build_preset(int i, const char *const *seeds, int n, int root_key, double root_hz)
 {
-	struct lattice_spec s;
-	memset(&s, 0, sizeof s);
-	s.seed_count = n;
-	for (int j = 0; j < n; j++) {
-		assert_true(ratio_parse(seeds[j], &s.seeds[j]));
-		snprintf(s.seed_text[j], sizeof s.seed_text[j], "%s", seeds[j]);
-	}
-	s.choose = 2;
-	s.period.num = 2;
-	s.period.den = 1;
 	struct core_error err;
-	assert_true(lattice_build(&lattices[i], &s, &err));
-	struct keymap_spec k;
-	memset(&k, 0, sizeof k);
-	k.layout = KEY_LAYOUT_SEQUENTIAL;
-	k.root_key = root_key;
-	k.root_hz = root_hz;
-	assert_true(keymap_build(&keymaps[i], &lattices[i], &k, &err));
-	snprintf(tunings.presets[i].name, sizeof tunings.presets[i].name, "p%d", i);
-	tunings.presets[i].lattice = &lattices[i];
-	tunings.presets[i].keymap = &keymaps[i];
+	char name[8];
+	snprintf(name, sizeof name, "p%d", i);
+	assert_true(fixture_preset(&lattices[i], &keymaps[i], &tunings.presets[i], name, seeds, n,
+				   root_key, root_hz, &err));
 }
 
 static int setup(void **state)
@@ -324,25 +309,18 @@ static struct sink sink;
 
 static void run_method(const char *name, enum retune_method method, bool mpe_input)
 {
-	struct engine_spec s;
-	memset(&s, 0, sizeof s);
-	s.output.method = method;
-	s.output.channels = method == RETUNE_MTS ? 0x001F : 0xFDFE;
-	s.output.bend_range = method == RETUNE_MPE || mpe_input ? 48 : 2;
-	s.output.bend_played = 1.0;
-	s.output.mts_device = 0x7F;
-	s.output.mts_bank = -1;
+	struct engine_spec s = fixture_spec(method);
+	if (method == RETUNE_MTS)
+		s.output.channels = 0x001F;
+	if (mpe_input)
+		s.output.bend_range = 48;
 	s.output.mts_bulk = method == RETUNE_MTS;
 	s.output.mpe_members = 8;
 	s.input.channels = mpe_input ? 0x001F : 0x0001;
 	s.input.mpe = mpe_input;
-	s.input.wheel_range_cents = 200.0;
-	s.input.mpe_bend_range = 48;
 	s.control.channel = 15;
 	s.control.program_selects_preset = true;
-	s.control.preset_cc = -1;
 	s.control.root_cc = 20;
-	s.control.preset_keys = s.control.root_keys = -1;
 
 	size_t length = make_stream(1 + (uint64_t)method * 7 + mpe_input, mpe_input);
 	memset(&sink, 0, sizeof sink);

@@ -29,6 +29,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "engine_fixture.h"
 #include "engine_harness.h"
 #include "synth_model.h"
 #include "latticed/pitch.h"
@@ -43,27 +44,12 @@ static struct synth_model model;
 
 static void build_preset(int i, const char *const *seeds, int n, int root_key, double root_hz)
 {
-	struct lattice_spec s;
-	memset(&s, 0, sizeof s);
-	s.seed_count = n;
-	for (int j = 0; j < n; j++) {
-		assert_true(ratio_parse(seeds[j], &s.seeds[j]));
-		strcpy(s.seed_text[j], seeds[j]);
-	}
-	s.choose = 2;
-	s.period.num = 2;
-	s.period.den = 1;
 	struct core_error err;
-	assert_true(lattice_build(&lattices[i], &s, &err));
-	struct keymap_spec k;
-	memset(&k, 0, sizeof k);
-	k.layout = KEY_LAYOUT_SEQUENTIAL;
-	k.root_key = root_key;
-	k.root_hz = root_hz;
-	assert_true(keymap_build(&keymaps[i], &lattices[i], &k, &err));
-	snprintf(tunings.presets[i].name, sizeof tunings.presets[i].name, "p%d", i);
-	tunings.presets[i].lattice = &lattices[i];
-	tunings.presets[i].keymap = &keymaps[i];
+	char name[8];
+	snprintf(name, sizeof name, "p%d", i);
+	if (!fixture_preset(&lattices[i], &keymaps[i], &tunings.presets[i], name, seeds, n,
+			    root_key, root_hz, &err))
+		fail_msg("%s", err.text);
 }
 
 static int setup_tunings(void **state)
@@ -79,23 +65,7 @@ static int setup_tunings(void **state)
 
 static struct engine_spec default_spec(enum retune_method method)
 {
-	struct engine_spec s;
-	memset(&s, 0, sizeof s);
-	s.output.method = method;
-	s.output.channels = 0xFDFE; /* 2-9, 11-16 */
-	s.output.bend_range = method == RETUNE_MPE ? 48 : 2;
-	s.output.bend_played = 1.0;
-	s.output.polyphony = POLY_SHARE_THEN_STEAL;
-	s.output.mts_device = 0x7F;
-	s.output.mts_bank = -1;
-	s.output.mpe_members = 15;
-	s.input.channels = 0x1;
-	s.input.wheel_range_cents = 200.0;
-	s.input.mpe_bend_range = 48;
-	s.control.channel = -1;
-	s.control.preset_cc = s.control.root_cc = -1;
-	s.control.preset_keys = s.control.root_keys = -1;
-	return s;
+	return fixture_spec(method);
 }
 
 static void start(const struct engine_spec *spec)

@@ -629,30 +629,6 @@ static struct midi_io *alsa_open(const struct midi_io_spec *spec, const struct m
 
 /* ---- reports ---------------------------------------------------------------- */
 
-static void appendf(char *line, size_t size, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
-
-static void appendf(char *line, size_t size, const char *fmt, ...)
-{
-	size_t used = strlen(line);
-	if (used + 1 >= size)
-		return;
-	va_list ap;
-	va_start(ap, fmt);
-	vsnprintf(line + used, size - used, fmt, ap);
-	va_end(ap);
-}
-
-static void append_patterns(const struct midi_io_port_spec *p, char *line, size_t size)
-{
-	if (p->connect_count == 0) {
-		appendf(line, size, "; no connect patterns");
-		return;
-	}
-	appendf(line, size, "; connect");
-	for (int i = 0; i < p->connect_count; i++)
-		appendf(line, size, " '%s'", p->connect[i]);
-}
-
 static void alsa_describe(struct midi_io *io, midi_io_line_fn line, void *context)
 {
 	char text[1024];
@@ -660,23 +636,23 @@ static void alsa_describe(struct midi_io *io, midi_io_line_fn line, void *contex
 	snprintf(text, sizeof text, "%s (%d:%d): ", io->spec.input.name[0] ? io->spec.input.name : "in",
 		 io->client, io->in_port);
 	if (source_ids_count(&io->sources) == 0)
-		appendf(text, sizeof text, "no source");
+		midi_io_appendf(text, sizeof text, "no source");
 	for (int id = 0, k = 0; id < MIDI_IO_MAX_SOURCES; id++) {
 		if (!io->sources.used[id])
 			continue;
 		uint32_t key = io->sources.key[id];
-		appendf(text, sizeof text, "%ssource %d %s (%u:%u)", k++ ? ", " : "", id, io->sources.name[id],
+		midi_io_appendf(text, sizeof text, "%ssource %d %s (%u:%u)", k++ ? ", " : "", id, io->sources.name[id],
 			key >> 8, key & 0xFF);
 	}
-	append_patterns(&io->spec.input, text, sizeof text);
+	midi_io_append_patterns(&io->spec.input, text, sizeof text);
 	if (io->overruns)
-		appendf(text, sizeof text, "; input overruns: %u (events lost; queue of %d events)", io->overruns,
+		midi_io_appendf(text, sizeof text, "; input overruns: %u (events lost; queue of %d events)", io->overruns,
 			io->input_pool);
 	if (io->unplaced_events)
-		appendf(text, sizeof text, "; %u events dropped from sources beyond %d", io->unplaced_events,
+		midi_io_appendf(text, sizeof text, "; %u events dropped from sources beyond %d", io->unplaced_events,
 			MIDI_IO_MAX_SOURCES);
 	if (io->connect_failures)
-		appendf(text, sizeof text, "; %u connections failed (last: %s)", io->connect_failures,
+		midi_io_appendf(text, sizeof text, "; %u connections failed (last: %s)", io->connect_failures,
 			snd_strerror(io->last_connect_error));
 	line(context, text);
 
@@ -685,14 +661,14 @@ static void alsa_describe(struct midi_io *io, midi_io_line_fn line, void *contex
 		snprintf(text, sizeof text, "%s (%d:%d): ",
 			 io->spec.outputs[i].name[0] ? io->spec.outputs[i].name : "out", io->client, o->port);
 		if (o->count == 0)
-			appendf(text, sizeof text, "not connected");
+			midi_io_appendf(text, sizeof text, "not connected");
 		for (int k = 0; k < o->count; k++)
-			appendf(text, sizeof text, "%s%s (%d:%d)", k ? ", " : "to ", o->dest[k].name,
+			midi_io_appendf(text, sizeof text, "%s%s (%d:%d)", k ? ", " : "to ", o->dest[k].name,
 				o->dest[k].addr.client, o->dest[k].addr.port);
-		append_patterns(&io->spec.outputs[i], text, sizeof text);
+		midi_io_append_patterns(&io->spec.outputs[i], text, sizeof text);
 		unsigned drops = atomic_load_explicit(&o->drops, memory_order_relaxed);
 		if (drops)
-			appendf(text, sizeof text, "; %u messages dropped", drops);
+			midi_io_appendf(text, sizeof text, "; %u messages dropped", drops);
 		line(context, text);
 	}
 }

@@ -6,6 +6,7 @@
 #include "midi_io.h"
 
 #include <fnmatch.h>
+#include <stdarg.h>
 #include <stdio.h>
 #include <string.h>
 
@@ -70,4 +71,26 @@ bool midi_io_matches(const struct midi_io_port_spec *port, const char *client,
 			return true;
 	}
 	return false;
+}
+
+void midi_io_appendf(char *line, size_t size, const char *fmt, ...)
+{
+	size_t used = strlen(line);
+	if (used + 1 >= size)
+		return;
+	va_list ap;
+	va_start(ap, fmt);
+	vsnprintf(line + used, size - used, fmt, ap);
+	va_end(ap);
+}
+
+void midi_io_append_patterns(const struct midi_io_port_spec *port, char *line, size_t size)
+{
+	if (port->connect_count == 0) {
+		midi_io_appendf(line, size, "; no connect patterns");
+		return;
+	}
+	midi_io_appendf(line, size, "; connect");
+	for (int i = 0; i < port->connect_count; i++)
+		midi_io_appendf(line, size, " '%s'", port->connect[i]);
 }

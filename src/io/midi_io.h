@@ -104,4 +104,10 @@ const char *midi_io_available(void);
 bool midi_io_matches(const struct midi_io_port_spec *port, const char *client,
 		     const char *port_name);
 
+/* For describe() lines: appends to the NUL-terminated line, never past size. */
+void midi_io_appendf(char *line, size_t size, const char *fmt, ...)
+	__attribute__((format(printf, 3, 4)));
+/* Appends "; connect 'a' 'b'" or "; no connect patterns". */
+void midi_io_append_patterns(const struct midi_io_port_spec *port, char *line, size_t size);
+
 #endif

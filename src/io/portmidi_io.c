@@ -533,30 +533,6 @@ static void pm_flush(struct midi_io *io)
 	(void)io; /* latency 0: every write went out at once */
 }
 
-static void appendf(char *line, size_t size, const char *fmt, ...) __attribute__((format(printf, 3, 4)));
-
-static void appendf(char *line, size_t size, const char *fmt, ...)
-{
-	size_t used = strlen(line);
-	if (used + 1 >= size)
-		return;
-	va_list ap;
-	va_start(ap, fmt);
-	vsnprintf(line + used, size - used, fmt, ap);
-	va_end(ap);
-}
-
-static void append_patterns(const struct midi_io_port_spec *p, char *line, size_t size)
-{
-	if (p->connect_count == 0) {
-		appendf(line, size, "; no connect patterns");
-		return;
-	}
-	appendf(line, size, "; connect");
-	for (int i = 0; i < p->connect_count; i++)
-		appendf(line, size, " '%s'", p->connect[i]);
-}
-
 static void pm_describe(struct midi_io *io, midi_io_line_fn line, void *context)
 {
 	char text[1024];
@@ -564,30 +540,30 @@ static void pm_describe(struct midi_io *io, midi_io_line_fn line, void *context)
 	pthread_mutex_lock(&pm_lock);
 	snprintf(text, sizeof text, "%s (PortMidi): ", io->spec.input.name[0] ? io->spec.input.name : "in");
 	if (io->input_count == 0)
-		appendf(text, sizeof text, "no source");
+		midi_io_appendf(text, sizeof text, "no source");
 	for (int i = 0; i < io->input_count; i++)
-		appendf(text, sizeof text, "%ssource %d %s (device %d)", i ? ", " : "", io->in[i].source,
+		midi_io_appendf(text, sizeof text, "%ssource %d %s (device %d)", i ? ", " : "", io->in[i].source,
 			io->sources.name[io->in[i].source], io->in[i].device);
-	append_patterns(&io->spec.input, text, sizeof text);
+	midi_io_append_patterns(&io->spec.input, text, sizeof text);
 	if (io->overruns)
-		appendf(text, sizeof text, "; %u input overflows (events lost)", io->overruns);
+		midi_io_appendf(text, sizeof text, "; %u input overflows (events lost)", io->overruns);
 	if (io->input_count > 0)
-		appendf(text, sizeof text, "; PortMidi sees no device come or go while an input is open");
+		midi_io_appendf(text, sizeof text, "; PortMidi sees no device come or go while an input is open");
 	if (io->last_error[0])
-		appendf(text, sizeof text, "; last error: %s", io->last_error);
+		midi_io_appendf(text, sizeof text, "; last error: %s", io->last_error);
 	line(context, text);
 	for (int i = 0; i < io->output_count; i++) {
 		const struct pm_output *o = &io->out[i];
 		snprintf(text, sizeof text, "%s (PortMidi): ",
 			 io->spec.outputs[i].name[0] ? io->spec.outputs[i].name : "out");
 		if (o->stream)
-			appendf(text, sizeof text, "to %s (device %d)", o->name, o->device);
+			midi_io_appendf(text, sizeof text, "to %s (device %d)", o->name, o->device);
 		else
-			appendf(text, sizeof text, "not connected");
-		append_patterns(&io->spec.outputs[i], text, sizeof text);
+			midi_io_appendf(text, sizeof text, "not connected");
+		midi_io_append_patterns(&io->spec.outputs[i], text, sizeof text);
 		unsigned drops = atomic_load_explicit(&o->drops, memory_order_relaxed);
 		if (drops)
-			appendf(text, sizeof text, "; %u messages dropped", drops);
+			midi_io_appendf(text, sizeof text, "; %u messages dropped", drops);
 		line(context, text);
 	}
 	pthread_mutex_unlock(&pm_lock);
