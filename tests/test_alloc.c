@@ -27,6 +27,7 @@
 #include <string.h>
 
 #include "engine_fixture.h"
+#include "test_rng.h"
 #include "latticed/engine.h"
 #include "latticed/midi_encoder.h"
 #include "latticed/midi_parser.h"
@@ -225,19 +226,6 @@ static void sink_emit(void *context, const struct midi_msg *m)
 #define STREAM_MAX (EVENTS * 16)
 
 static uint8_t stream[STREAM_MAX];
-
-struct rng {
-	uint64_t state;
-};
-
-static uint32_t rng_next(struct rng *r)
-{
-	/* xorshift64* (Vigna), common practice for test streams */
-	r->state ^= r->state >> 12;
-	r->state ^= r->state << 25;
-	r->state ^= r->state >> 27;
-	return (uint32_t)((r->state * 0x2545F4914F6CDD1DULL) >> 32);
-}
 
 static size_t put3(size_t at, uint8_t status, uint8_t d1, uint8_t d2)
 {

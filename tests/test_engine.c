@@ -31,6 +31,7 @@
 
 #include "engine_fixture.h"
 #include "engine_harness.h"
+#include "test_rng.h"
 #include "synth_model.h"
 #include "latticed/pitch.h"
 
@@ -751,24 +752,6 @@ static void synth_correction_factor_and_offset(void **state)
 }
 
 /* ---- randomized promises ----------------------------------------------------- */
-
-struct rng {
-	uint64_t state;
-};
-
-static uint32_t rng_next(struct rng *r)
-{
-	/* xorshift64* (Vigna), common practice for test streams */
-	r->state ^= r->state >> 12;
-	r->state ^= r->state << 25;
-	r->state ^= r->state >> 27;
-	return (uint32_t)((r->state * 0x2545F4914F6CDD1DULL) >> 32);
-}
-
-static int rng_below(struct rng *r, int n)
-{
-	return (int)(rng_next(r) % (uint32_t)n);
-}
 
 /* The test's own record of each sounding output note. */
 struct owner {

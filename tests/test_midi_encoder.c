@@ -14,6 +14,7 @@
 
 #include "latticed/midi_encoder.h"
 #include "latticed/midi_parser.h"
+#include "test_rng.h"
 
 static void expect_bytes(const uint8_t *got, size_t n, const uint8_t *want, size_t wn)
 {
@@ -133,15 +134,11 @@ static void test_encoder_capacity_and_invalid(void **state)
 
 /* --- randomized round trip ------------------------------------------------ */
 
-static uint64_t rng_state;
+static struct rng rng;
 
 static uint32_t rnd(void)
 {
-	/* xorshift64* */
-	rng_state ^= rng_state >> 12;
-	rng_state ^= rng_state << 25;
-	rng_state ^= rng_state >> 27;
-	return (uint32_t)((rng_state * 2685821657736338717ULL) >> 32);
+	return rng_next(&rng);
 }
 
 static uint32_t below(uint32_t n)
@@ -231,7 +228,7 @@ static void round_trip(uint64_t seed, bool running, bool inject)
 {
 	static struct run r;
 	memset(&r, 0, sizeof r);
-	rng_state = seed;
+	rng.state = seed;
 	struct midi_encoder e;
 	midi_encoder_init(&e, running);
 	size_t saved = 0;

@@ -32,13 +32,22 @@ static bool output_uses_bend(const struct output_config *o)
 	return o->method == RETUNE_BEND || o->method == RETUNE_MPE;
 }
 
-/* The bend an output sends for a key: its own offset, range and factor. */
-static struct bend output_bend(const struct output_config *o, const struct keymap *map, int key)
+/* Each output's view of the key map (its cents offset applied), built once
+ * per print: what the engine will hold for it. */
+static struct retune_table output_tables[CONFIG_MAX_OUTPUTS]; /* single-threaded command */
+
+static void build_output_tables(const struct config *cfg, const struct keymap *map)
 {
-	static struct retune_table table; /* single-threaded command, 8 KB */
-	retune_table_build(&table, map, o->cents_offset);
-	const struct retune_key *rk = &table.keys[key];
-	return pitch_bend_for_cents(rk->cents, output_bend_range(o), o->bend_factor);
+	for (int o = 0; o < cfg->output_count; o++)
+		retune_table_build(&output_tables[o], map, cfg->outputs[o].cents_offset);
+}
+
+/* The bend output number o sends for a key: its own offset, range and factor. */
+static struct bend output_bend(const struct config *cfg, int o, int key)
+{
+	const struct output_config *out = &cfg->outputs[o];
+	const struct retune_key *rk = &output_tables[o].keys[key];
+	return pitch_bend_for_cents(rk->cents, output_bend_range(out), out->bend_factor);
 }
 
 static void print_seeds(FILE *f, const struct lattice_spec *spec)
@@ -75,6 +84,7 @@ void table_print_text(FILE *f, const struct config *cfg, int preset, const struc
 	const struct lattice *lat = &t->lattice;
 	const struct lattice_spec *spec = &lat->spec;
 	const struct keymap *map = &t->keymap;
+	build_output_tables(cfg, map);
 	const struct keymap_spec *keys = &cfg->presets[preset].keys;
 	char label[LATTICE_LABEL_MAX], text[RATIO_TEXT_MAX], name[8];
 
@@ -189,7 +199,7 @@ void table_print_text(FILE *f, const struct config *cfg, int preset, const struc
 			const struct output_config *out = &cfg->outputs[o];
 			if (!output_uses_bend(out))
 				continue;
-			struct bend b = output_bend(out, map, k);
+			struct bend b = output_bend(cfg, o, k);
 			fprintf(f, "  %6u %+7.3f", b.value, b.error_cents);
 		}
 		fprintf(f, "  %02X %02X %02X\n", kp->mts[0], kp->mts[1], kp->mts[2]);
@@ -227,6 +237,7 @@ int table_print_json(FILE *f, const struct config *cfg, int preset, const struct
 	const struct lattice *lat = &t->lattice;
 	const struct lattice_spec *spec = &lat->spec;
 	const struct keymap *map = &t->keymap;
+	build_output_tables(cfg, map);
 	char label[LATTICE_LABEL_MAX], text[RATIO_TEXT_MAX];
 
 	struct json_object *root = json_object_new_object();
@@ -329,7 +340,7 @@ int table_print_json(FILE *f, const struct config *cfg, int preset, const struct
 		bool first = true;
 		for (int o = 0; o < cfg->output_count; o++) {
 			const struct output_config *out = &cfg->outputs[o];
-			struct bend b = output_bend(out, map, k);
+			struct bend b = output_bend(cfg, o, k);
 			if (first) {
 				/* the first output's bend, at top level for quick use */
 				json_object_object_add(jk, "bend", json_object_new_int(b.value));
