@@ -474,7 +474,6 @@ static void release_note(struct engine *e, int index, uint8_t velocity)
 		n->phase = NOTE_RINGING;
 		return;
 	}
-	n->phase = NOTE_RINGING; /* so end_note leaves key_down alone */
 	end_note(e, index);
 }
 
@@ -1163,7 +1162,6 @@ void engine_panic(struct engine *e)
 			continue;
 		if (n->phase == NOTE_DOWN)
 			send_note_off(e, n, 64);
-		n->phase = NOTE_RINGING; /* key_down is cleared below */
 		end_note(e, i);
 	}
 	for (int s = 0; s < ENGINE_MAX_SOURCES; s++)
