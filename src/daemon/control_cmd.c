@@ -20,6 +20,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include <sys/socket.h>
+#include <sys/time.h>
 #include <sys/un.h>
 #include <unistd.h>
 
@@ -60,7 +61,7 @@ static void usage(FILE *f, const struct command_spec *c, const char *default_con
 
 /* ---- talking to the daemon ------------------------------------------------ */
 
-static int connect_to(const char *path)
+static int connect_to(const char *path, int timeout_ms)
 {
 	struct sockaddr_un addr;
 	memset(&addr, 0, sizeof addr);
@@ -74,6 +75,10 @@ static int connect_to(const char *path)
 	int fd = socket(AF_UNIX, SOCK_STREAM, 0);
 	if (fd < 0)
 		return -1;
+	/* a daemon whose queue of waiting connections is full makes connect()
+	 * wait; the send timeout bounds that wait (unix(7)), then EAGAIN */
+	struct timeval wait = {timeout_ms / 1000, (timeout_ms % 1000) * 1000};
+	(void)setsockopt(fd, SOL_SOCKET, SO_SNDTIMEO, &wait, sizeof wait);
 	if (connect(fd, (struct sockaddr *)&addr, sizeof addr) != 0) {
 		int saved = errno;
 		close(fd);
@@ -84,13 +89,19 @@ static int connect_to(const char *path)
 }
 
 /* Connects to the first candidate that answers; prints why not otherwise. */
-static int connect_daemon(char paths[][CONTROL_PATH_MAX], int count, const char **used)
+static int connect_daemon(char paths[][CONTROL_PATH_MAX], int count, const char **used,
+			  int timeout_ms)
 {
 	for (int i = 0; i < count; i++) {
-		int fd = connect_to(paths[i]);
+		int fd = connect_to(paths[i], timeout_ms);
 		if (fd >= 0) {
 			*used = paths[i];
 			return fd;
+		}
+		if (errno == EAGAIN || errno == EWOULDBLOCK) {
+			fprintf(stderr, "latticed: the daemon at %s took no new connection within %d s (too many clients waiting); try again\n",
+				paths[i], timeout_ms / 1000);
+			return -1;
 		}
 		if (errno != ENOENT && errno != ECONNREFUSED && errno != ENOTDIR) {
 			fprintf(stderr, "latticed: cannot reach the daemon at %s: %s%s\n", paths[i],
@@ -351,7 +362,7 @@ static int run_client(const struct command_spec *c, int argc, char **argv,
 			return 1;
 	}
 	const char *used = paths[0];
-	int fd = connect_daemon(paths, count, &used);
+	int fd = connect_daemon(paths, count, &used, c->timeout_ms);
 	if (fd < 0)
 		return 1;
 	char *answer = exchange(fd, request, c->timeout_ms, used);

@@ -12,9 +12,11 @@
  *
  * The loop sleeps in ppoll() on its eventfd (the MIDI threads write it
  * after posting log lines or replies) and the control socket, with
- * SIGTERM, SIGINT and SIGHUP unblocked only inside ppoll, so a signal is
- * never missed between a check of the flags and the sleep.  The handlers
- * only set flags.  After the first SIGINT or SIGTERM the default action is
+ * SIGTERM, SIGINT, SIGHUP and SIGUSR1 unblocked only inside ppoll, so a
+ * signal is never missed between a check of the flags and the sleep.  The
+ * handlers only set flags.  SIGUSR1 is the panic nothing can lock out (the
+ * control socket can be busy): it is posted like `latticed panic`, and
+ * posted again on the next turn if the request queue was full.  After the first SIGINT or SIGTERM the default action is
  * restored for SIGINT, so a second one ends the process at once even if
  * the orderly stop hangs.
  *
@@ -59,11 +61,14 @@
 
 static volatile sig_atomic_t quit_requested;
 static volatile sig_atomic_t reload_requested;
+static volatile sig_atomic_t panic_requested;
 
 static void on_signal(int sig)
 {
 	if (sig == SIGHUP)
 		reload_requested = 1;
+	else if (sig == SIGUSR1)
+		panic_requested = 1;
 	else
 		quit_requested = sig;
 }
@@ -87,6 +92,7 @@ struct daemon {
 	int64_t last_ping_ms;
 	bool stall_logged;
 	bool reload_in_flight;
+	bool panic_pending;                  /* SIGUSR1 not yet taken by the input thread */
 	int reload_client;                   /* -1: SIGHUP */
 	char reload_notes[512];              /* what needs a restart */
 	char state[REPLY_TEXT_MAX];          /* current preset and root */
@@ -373,9 +379,9 @@ static void on_request(void *context, int id, const char *line)
 	} else if (strcmp(word, "reload") == 0) {
 		start_reload(d, id);
 	} else {
-		char text[CONTROL_LINE_MAX + 96];
-		snprintf(text, sizeof text, "unknown request '%.64s', expected status, panic, preset NAME, root N or reload",
-			 line);
+		char quoted[80], text[sizeof quoted + 96];
+		snprintf(text, sizeof text, "unknown request '%s', expected status, panic, preset NAME, root N or reload",
+			 control_text_copy(quoted, sizeof quoted, line, 64));
 		reply_simple(d, id, false, text);
 	}
 }
@@ -574,6 +580,7 @@ static void install_signals(struct daemon *d)
 	sigaction(SIGTERM, &sa, NULL);
 	sigaction(SIGINT, &sa, NULL);
 	sigaction(SIGHUP, &sa, NULL);
+	sigaction(SIGUSR1, &sa, NULL);
 	struct sigaction ignore;
 	memset(&ignore, 0, sizeof ignore);
 	ignore.sa_handler = SIG_IGN;
@@ -583,11 +590,26 @@ static void install_signals(struct daemon *d)
 	sigaddset(&block, SIGTERM);
 	sigaddset(&block, SIGINT);
 	sigaddset(&block, SIGHUP);
+	sigaddset(&block, SIGUSR1);
 	/* blocked everywhere (the MIDI threads inherit it), open only inside ppoll */
 	pthread_sigmask(SIG_BLOCK, &block, &d->run_mask);
 	sigdelset(&d->run_mask, SIGTERM);
 	sigdelset(&d->run_mask, SIGINT);
 	sigdelset(&d->run_mask, SIGHUP);
+	sigdelset(&d->run_mask, SIGUSR1);
+}
+
+/* SIGUSR1: every note off on every output, as `latticed panic` does. */
+static void signal_panic(struct daemon *d)
+{
+	if (panic_requested) {
+		panic_requested = 0;
+		d->panic_pending = true;
+		log_print(LOG_LEVEL_NOTICE, "SIGUSR1: ending every note on every output");
+	}
+	struct request r = {.kind = REQUEST_PANIC, .id = -1, .number = -1};
+	if (d->panic_pending && input_thread_post(d->in, &r))
+		d->panic_pending = false;
 }
 
 static void main_loop(struct daemon *d)
@@ -595,18 +617,24 @@ static void main_loop(struct daemon *d)
 	struct pollfd fds[MAIN_POLL_MAX];
 	while (!quit_requested) {
 		fds[0] = (struct pollfd){.fd = d->main_wake_fd, .events = POLLIN};
-		int n = 1 + control_server_pollfds(&d->control, fds + 1, MAIN_POLL_MAX - 1);
+		int n = 1 + control_server_pollfds(&d->control, fds + 1, MAIN_POLL_MAX - 1, monotonic_ms());
 		int timeout_ms = DEFAULT_HEARTBEAT_MS;
 		if (d->watchdog_usec && (int)(d->watchdog_usec / 4000) < timeout_ms)
 			timeout_ms = (int)(d->watchdog_usec / 4000);
+		int control_ms = control_server_timeout_ms(&d->control, monotonic_ms());
+		if (control_ms >= 0 && control_ms < timeout_ms)
+			timeout_ms = control_ms;
+		if (d->panic_pending)
+			timeout_ms = 1; /* the request queue was full: try again soon */
 		struct timespec timeout = {timeout_ms / 1000, (long)(timeout_ms % 1000) * 1000000L};
 		int ready = ppoll(fds, (nfds_t)n, &timeout, &d->run_mask);
 		if (ready > 0 && (fds[0].revents & POLLIN))
 			wake_fd_clear(d->main_wake_fd);
+		signal_panic(d);
 		drain_logs(d);
 		handle_replies(d);
-		if (ready > 0)
-			control_server_service(&d->control, fds + 1, n - 1, on_request, d);
+		/* every turn, polled or not: it also writes the replies just queued and closes idle clients */
+		control_server_service(&d->control, fds + 1, n - 1, on_request, d, monotonic_ms());
 		if (reload_requested) {
 			reload_requested = 0;
 			log_print(LOG_LEVEL_INFO, "SIGHUP: reloading");
