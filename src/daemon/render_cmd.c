@@ -12,7 +12,9 @@
  * release them: a note-off for every key still down, in the track its
  * note-on came from, then pedal-up for every pedal still down, in the
  * track that last moved it; engine_panic only if something still sounds
- * after that (it should not).
+ * after that (it should not).  A track whose last event lies more than
+ * one delta time (VLQ_MAX_VALUE ticks, SMF 1.0) before the end gets its
+ * releases as late as a delta reaches instead, reported.
  */
 #include "render_cmd.h"
 
@@ -22,6 +24,7 @@
 #include <unistd.h>
 
 #include "latticed/midi_msg.h"
+#include "latticed/vlq.h"
 #include "smf_file.h"
 
 #define CC_SUSTAIN 64
@@ -48,6 +51,8 @@ struct out_track {
 	struct out_event *events;
 	size_t count, capacity;
 	uint32_t end_tick;
+	bool release_set;          /* release_tick is chosen */
+	uint32_t release_tick;     /* where what hangs in this track is released */
 };
 
 /* One input event in the merged order. */
@@ -167,6 +172,9 @@ static bool writable(struct render *r, const struct smf_event *ev)
 			left_out(r, ev, why);
 			return false;
 		}
+		uint32_t tempo;
+		if (smf_event_tempo(ev, &tempo) && tempo == 0 && r->report->zero_tempos++ == 0)
+			r->report->zero_tempo_offset = ev->offset;
 		return true;
 	}
 	if (ev->kind == SMF_EVENT_SYSEX) {
@@ -221,13 +229,33 @@ static void feed(struct render *r, size_t track, const struct smf_event *ev)
 	engine_handle(r->engine, 0, m);
 }
 
+/* From now on the engine's messages go to `track`, at the tick where what
+ * hangs there is released: `end`, or as far as one delta time reaches
+ * past the track's last event if the end lies beyond that. */
+static void release_in(struct render *r, size_t track, uint32_t end)
+{
+	struct out_track *t = &r->tracks[track];
+	if (!t->release_set) {
+		uint32_t last = t->count ? t->events[t->count - 1].tick : 0;
+		t->release_tick = end;
+		if (end > last && end - last > VLQ_MAX_VALUE) {
+			t->release_tick = last + VLQ_MAX_VALUE;
+			r->report->early_tracks++;
+			if (r->report->early_tick == 0 || t->release_tick < r->report->early_tick)
+				r->report->early_tick = t->release_tick;
+		}
+		t->release_set = true;
+	}
+	r->track = track;
+	r->tick = t->release_tick;
+}
+
 /* Releases what the input left sounding, at `tick`. */
 static void release_hanging(struct render *r, size_t setup_track, uint32_t tick)
 {
 	struct engine *e = r->engine;
 	if (e->note_count == 0)
 		return;
-	r->tick = tick;
 	r->report->hanging_tick = tick > r->report->hanging_tick ? tick : r->report->hanging_tick;
 	/* released notes a pedal holds; counted before the keys join them */
 	for (int i = 0; i < ENGINE_MAX_NOTES; i++)
@@ -236,7 +264,7 @@ static void release_hanging(struct render *r, size_t setup_track, uint32_t tick)
 		for (int key = 0; key < 128; key++) {
 			if (e->key_down[0][ch][key] == NO_NOTE)
 				continue;
-			r->track = r->key_track[ch][key];
+			release_in(r, r->key_track[ch][key], tick);
 			struct midi_msg off = midi_msg_note_off((uint8_t)ch, (uint8_t)key,
 								MIDI_DEFAULT_VELOCITY);
 			engine_handle(e, 0, &off);
@@ -244,7 +272,7 @@ static void release_hanging(struct render *r, size_t setup_track, uint32_t tick)
 		}
 	}
 	for (int ch = 0; ch < 16 && e->note_count > 0; ch++) {
-		r->track = r->pedal_track[ch];
+		release_in(r, r->pedal_track[ch], tick);
 		if (e->in[ch].sustain) {
 			struct midi_msg up = midi_msg_control((uint8_t)ch, CC_SUSTAIN, 0);
 			engine_handle(e, 0, &up);
@@ -255,7 +283,7 @@ static void release_hanging(struct render *r, size_t setup_track, uint32_t tick)
 		}
 	}
 	if (e->note_count > 0) {
-		r->track = setup_track;
+		release_in(r, setup_track, tick);
 		engine_panic(e);
 	}
 }
@@ -458,6 +486,16 @@ static void print_warnings(const char *in_name, const struct smf *in,
 			"latticed render: %s: warning: %zu note%s left hanging at the end of the input (%zu without a note-off, %zu held by a pedal), released at tick %u\n",
 			in_name, hanging, hanging == 1 ? "" : "s", rep->hanging_keys,
 			rep->hanging_pedal_notes, rep->hanging_tick);
+	if (rep->early_tracks)
+		fprintf(stderr,
+			"latticed render: %s: warning: hanging notes released from tick %u instead of %u in %zu track%s: the end lies more than %u ticks (the longest delta time, SMF 1.0) after the track's last event\n",
+			in_name, rep->early_tick, rep->hanging_tick, rep->early_tracks,
+			plural(rep->early_tracks, "", "s"), VLQ_MAX_VALUE);
+	if (rep->zero_tempos)
+		fprintf(stderr,
+			"latticed render: %s: warning: byte %zu: tempo 0 microseconds per quarter note, which no player can keep (expected 1 to 16777215); copied unchanged%s\n",
+			in_name, rep->zero_tempo_offset,
+			rep->zero_tempos > 1 ? ", as are the other tempo 0 events" : "");
 	const struct engine_stats *s = &rep->engine;
 	uint32_t n = rep->notices;
 	if (n & NOTICE_BEND_CLAMPED)
@@ -499,6 +537,11 @@ int render_run(const struct render_request *req)
 {
 	const char *in_name = display_name(req->in_path, "standard input");
 	const char *out_name = display_name(req->out_path, "standard output");
+	if (!req->in_path[0] || !req->out_path[0]) {
+		fprintf(stderr, "latticed render: the %s file name is empty; name a file, or - for standard %s\n",
+			req->in_path[0] ? "output" : "input", req->in_path[0] ? "output" : "input");
+		return 2;
+	}
 	if (smf_file_is_stdio(req->out_path) && isatty(STDOUT_FILENO)) {
 		fprintf(stderr,
 			"latticed render: refusing to write a MIDI file to a terminal; name a file or redirect standard output\n");

@@ -19,7 +19,10 @@
  *
  * Notes the input never released (a missing note-off, a pedal left down)
  * are released at the file's last tick and reported, so the output never
- * leaves a note sounding.  Input events a strict file cannot hold (a tempo
+ * leaves a note sounding (earlier, where one delta time cannot reach the
+ * last tick from their track's last event).  A tempo of 0 is copied as it
+ * is, with a warning naming its byte: render changes pitch, never time, so
+ * the output plays as the input does wherever it is played.  Input events a strict file cannot hold (a tempo
  * event of the wrong length, a SysEx with a status byte inside) are left
  * out and reported with their byte offset.
  */
@@ -45,6 +48,10 @@ struct render_report {
 	size_t hanging_keys;         /* note-ons the input never ended */
 	size_t hanging_pedal_notes;  /* released notes a pedal still held at the end */
 	uint32_t hanging_tick;       /* where they were released */
+	size_t early_tracks;         /* tracks whose releases came earlier (delta limit) */
+	uint32_t early_tick;         /* the earliest of those releases */
+	size_t zero_tempos;          /* tempo events of 0 us per quarter note */
+	size_t zero_tempo_offset;    /* byte offset of the first */
 	size_t left_out;             /* input events no strict file can hold */
 	uint16_t format;             /* of the output: the input's, but a format 0
 	                              * file with several tracks becomes format 1 */

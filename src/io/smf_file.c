@@ -1,16 +1,28 @@
 /*
  * smf_file: whole-file reading and atomic writing (contract in smf_file.h).
  *
- * The temporary file is ".NAME.XXXXXX" beside the target, so the rename
- * never crosses a file system.  It gets the mode the target already has,
- * or the mode a newly created file would get (0666 less the umask): a
- * render must not leave a file only its owner can read where the user
- * expected an ordinary one.  The directory is synced after the rename so
- * the new name survives a power cut, which matters on a Raspberry Pi
- * whose SD card is pulled after a session.
+ * What is at the output name decides how it is written.  Nothing, or a
+ * regular file: replaced atomically.  The temporary file is
+ * ".NAME.XXXXXX" beside the target (created with O_EXCL and O_NOFOLLOW,
+ * so it is never an existing file or a planted link), so the rename never
+ * crosses a file system.  It gets the mode (and, where permitted, the
+ * owner) the target already has, or the mode a newly created file would
+ * get (0666 less the umask): a render must not leave a file only its owner
+ * can read where the user expected an ordinary one.  The directory is
+ * synced after the rename so the new name survives a power cut, which
+ * matters on a Raspberry Pi whose SD card is pulled after a session.
+ *
+ * A FIFO or a character device (a synth's port, /dev/null) is opened and
+ * written as it is: replacing it would destroy it.  A symbolic link is
+ * followed by the kernel, never resolved by hand first: a link to a
+ * regular file replaces that file (beside it, under the name the kernel
+ * reached), a link to a FIFO or device (/proc/self/fd/1) is written
+ * through.  A link owned by another user in a sticky directory anyone may
+ * write to (/tmp) is refused, whatever fs.protected_symlinks says: that is
+ * how one user makes another overwrite a file of their choice.
  */
-/* realpath() is an X/Open interface */
-#define _XOPEN_SOURCE 700
+/* O_PATH and mkostemp() are Linux / GNU interfaces; realpath() X/Open */
+#define _GNU_SOURCE
 
 #include "smf_file.h"
 
@@ -112,60 +124,48 @@ static mode_t new_file_mode(void)
 /* Best effort: a directory that cannot be synced still holds the file. */
 static void sync_directory(const char *dir)
 {
-	int fd = open(dir, O_RDONLY);
+	int fd = open(dir, O_RDONLY | O_CLOEXEC);
 	if (fd < 0)
 		return;
 	fsync(fd);
 	close(fd);
 }
 
-bool smf_file_write(const char *path, const uint8_t *bytes, size_t length,
+/* The directory part of path ("." when there is none). */
+static void directory_of(const char *path, char *dir, size_t size)
+{
+	const char *slash = strrchr(path, '/');
+	if (!slash)
+		snprintf(dir, size, ".");
+	else if (slash == path)
+		snprintf(dir, size, "/");
+	else
+		snprintf(dir, size, "%.*s", (int)(slash - path), path);
+}
+
+/* Writes a new regular file at path through a temporary file and rename;
+ * `old` is what is there now (NULL: nothing). */
+static bool replace(const char *path, const struct stat *old, const uint8_t *bytes, size_t length,
 		    struct core_error *err)
 {
-	if (smf_file_is_stdio(path)) {
-		if (!write_all(STDOUT_FILENO, bytes, length))
-			return core_fail(err, "", "cannot write: %s", strerror(errno));
-		return true;
-	}
-
-	/* Through a symbolic link, replace the file it points to, not the link. */
-	char resolved[PATH_MAX];
-	struct stat st;
-	bool exists = false;
-	mode_t mode = 0;
-	if (lstat(path, &st) == 0 && S_ISLNK(st.st_mode) && realpath(path, resolved))
-		path = resolved;
-	if (stat(path, &st) == 0) {
-		if (S_ISDIR(st.st_mode))
-			return core_fail(err, "", "cannot write: it is a directory");
-		exists = true;
-		mode = st.st_mode & 07777;
-	}
-	if (!exists)
-		mode = new_file_mode();
-
-	const char *slash = strrchr(path, '/');
-	size_t dir_length = slash ? (size_t)(slash - path) : 0;
-	const char *base = slash ? slash + 1 : path;
 	char dir[PATH_MAX], temp[PATH_MAX];
-	if (slash && dir_length == 0)
-		snprintf(dir, sizeof dir, "/");
-	else if (slash)
-		snprintf(dir, sizeof dir, "%.*s", (int)dir_length, path);
-	else
-		snprintf(dir, sizeof dir, ".");
-	int n = snprintf(temp, sizeof temp, "%s/.%s.XXXXXX", dir, base);
+	directory_of(path, dir, sizeof dir);
+	const char *slash = strrchr(path, '/');
+	int n = snprintf(temp, sizeof temp, "%s/.%s.XXXXXX", dir, slash ? slash + 1 : path);
 	if (n < 0 || (size_t)n >= sizeof temp)
 		return core_fail(err, "", "cannot write: the path is too long");
-
-	int fd = mkstemp(temp);
+	int fd = mkostemp(temp, O_NOFOLLOW | O_CLOEXEC);
 	if (fd < 0)
 		return core_fail(err, "", "cannot create a file in %s: %s", dir, strerror(errno));
 	const char *failed = NULL;
 	int saved = 0;
+	/* the file stays its owner's when root renders over it (chown clears
+	 * set-id bits, so the mode is set after) */
+	if (old && (old->st_uid != geteuid() || old->st_gid != getegid()))
+		(void)!fchown(fd, old->st_uid, old->st_gid);
 	if (!write_all(fd, bytes, length))
 		failed = "cannot write";
-	else if (fchmod(fd, mode) != 0)
+	else if (fchmod(fd, old ? old->st_mode & 07777 : new_file_mode()) != 0)
 		failed = "cannot set the file mode";
 	else if (fsync(fd) != 0)
 		failed = "cannot write (fsync)";
@@ -185,4 +185,114 @@ bool smf_file_write(const char *path, const uint8_t *bytes, size_t length,
 	}
 	sync_directory(dir);
 	return true;
+}
+
+/* A FIFO, a device, or a regular file that has no name to replace: written
+ * where it is.  `st` says what the caller found there; open_flags add
+ * O_NOFOLLOW when path itself was that thing and not a link to it. */
+static bool write_in_place(const char *path, const struct stat *st, int open_flags,
+			   const uint8_t *bytes, size_t length, struct core_error *err)
+{
+	if (S_ISDIR(st->st_mode))
+		return core_fail(err, "", "cannot write: it is a directory");
+	if (S_ISBLK(st->st_mode))
+		return core_fail(err, "", "cannot write: it is a block device (a disk); name a file");
+	if (!S_ISFIFO(st->st_mode) && !S_ISCHR(st->st_mode) && !S_ISREG(st->st_mode))
+		return core_fail(err, "", "cannot write: it is not a file, a FIFO or a character device");
+	/* a FIFO open waits for its reader, as a shell's > does; a device open must not wait */
+	int flags = O_WRONLY | O_NOCTTY | O_CLOEXEC | open_flags;
+	flags |= S_ISFIFO(st->st_mode) ? 0 : O_NONBLOCK;
+	flags |= S_ISREG(st->st_mode) ? O_TRUNC : 0;
+	int fd = open(path, flags);
+	if (fd < 0)
+		return core_fail(err, "", "cannot open for writing: %s", strerror(errno));
+	struct stat now;
+	const char *failed = NULL;
+	int saved = 0;
+	if (fstat(fd, &now) != 0 || (now.st_mode & S_IFMT) != (st->st_mode & S_IFMT)) {
+		failed = "cannot write: it changed while being opened";
+	} else if (isatty(fd)) {
+		failed = "refusing to write a MIDI file to a terminal";
+	} else if (fcntl(fd, F_SETFL, fcntl(fd, F_GETFL) & ~O_NONBLOCK) != 0 ||
+		   !write_all(fd, bytes, length)) {
+		failed = "cannot write";
+		saved = errno;
+	}
+	if (close(fd) != 0 && !failed) {
+		failed = "cannot write (close)";
+		saved = errno;
+	}
+	if (!failed)
+		return true;
+	if (saved)
+		return core_fail(err, "", "%s: %s", failed, strerror(saved));
+	return core_fail(err, "", "%s", failed);
+}
+
+/* The kernel's protected_symlinks rule (proc(5), fs.protected_symlinks):
+ * a link in a sticky world-writable directory is followed only by its
+ * owner, or when the directory's owner owns it. */
+static bool link_may_be_followed(const char *path, const struct stat *link, struct core_error *err)
+{
+	char dir[PATH_MAX];
+	struct stat d;
+	directory_of(path, dir, sizeof dir);
+	if (stat(dir, &d) != 0)
+		return core_fail(err, "", "cannot look at the directory %s: %s", dir, strerror(errno));
+	bool shared = (d.st_mode & (S_ISVTX | S_IWOTH)) == (S_ISVTX | S_IWOTH);
+	if (shared && link->st_uid != geteuid() && link->st_uid != d.st_uid)
+		return core_fail(err, "",
+				 "refusing to follow a symbolic link of another user (uid %ld) in %s, a sticky directory anyone can write to: it could point at any file (the kernel's protected_symlinks rule); remove the link, or name the file itself",
+				 (long)link->st_uid, dir);
+	return true;
+}
+
+static bool write_through_link(const char *path, const struct stat *link, const uint8_t *bytes,
+			       size_t length, struct core_error *err)
+{
+	if (!link_may_be_followed(path, link, err))
+		return false;
+	/* the kernel follows the link (and applies its own rules on the way) */
+	int fd = open(path, O_PATH | O_CLOEXEC);
+	if (fd < 0 && errno == ENOENT)
+		return core_fail(err, "", "cannot write: it is a symbolic link to nothing (a missing file); create the file it names, or remove the link");
+	if (fd < 0)
+		return core_fail(err, "", "cannot follow the symbolic link: %s", strerror(errno));
+	struct stat target;
+	int rc = fstat(fd, &target);
+	close(fd);
+	if (rc != 0)
+		return core_fail(err, "", "cannot follow the symbolic link: %s", strerror(errno));
+	if (!S_ISREG(target.st_mode))
+		return write_in_place(path, &target, 0, bytes, length, err);
+	/* a regular file is replaced under the name the kernel reached, if it has one */
+	char resolved[PATH_MAX];
+	struct stat check;
+	if (realpath(path, resolved) && lstat(resolved, &check) == 0 && S_ISREG(check.st_mode) &&
+	    check.st_dev == target.st_dev && check.st_ino == target.st_ino)
+		return replace(resolved, &check, bytes, length, err);
+	return write_in_place(path, &target, 0, bytes, length, err);
+}
+
+bool smf_file_write(const char *path, const uint8_t *bytes, size_t length,
+		    struct core_error *err)
+{
+	if (smf_file_is_stdio(path)) {
+		if (!write_all(STDOUT_FILENO, bytes, length))
+			return core_fail(err, "", "cannot write: %s", strerror(errno));
+		return true;
+	}
+	if (path[0] == '\0')
+		return core_fail(err, "", "the file name is empty: name a file, or - for standard output");
+	struct stat st;
+	if (lstat(path, &st) != 0) {
+		if (errno != ENOENT)
+			return core_fail(err, "", "cannot write: %s", strerror(errno));
+		return replace(path, NULL, bytes, length, err);
+	}
+	if (S_ISREG(st.st_mode))
+		return replace(path, &st, bytes, length, err);
+	if (S_ISLNK(st.st_mode))
+		return write_through_link(path, &st, bytes, length, err);
+	return write_in_place(path, &st, O_NOFOLLOW, bytes, length, err);
 }

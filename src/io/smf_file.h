@@ -7,7 +7,8 @@
  * name asked for: the bytes go to a temporary file in the same directory,
  * are flushed to the disk (fsync), and only then renamed over the target,
  * which is atomic on POSIX file systems; on any failure the temporary file
- * is removed and the target is left as it was.
+ * is removed and the target is left as it was.  Only regular files are
+ * replaced that way: a FIFO or a device is written to as it is.
  *
  * Errors are one sentence in err->text without the path ("cannot open: No
  * such file or directory"); the caller puts the path in front.
@@ -30,7 +31,10 @@ bool smf_file_is_stdio(const char *path);
 /* Reads the whole file (or stdin) into *bytes, which the caller free()s. */
 bool smf_file_read(const char *path, uint8_t **bytes, size_t *length, struct core_error *err);
 
-/* Replaces path with exactly these bytes (or writes them to stdout). */
+/* Replaces path with exactly these bytes (or writes them to stdout).  A
+ * FIFO or character device at path, or behind a symbolic link there, is
+ * written in place instead; a link of another user in a sticky directory
+ * anyone can write to is refused (see smf_file.c). */
 bool smf_file_write(const char *path, const uint8_t *bytes, size_t length,
 		    struct core_error *err);
 
