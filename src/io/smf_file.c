@@ -242,8 +242,8 @@ static bool link_may_be_followed(const char *path, const struct stat *link, stru
 	bool shared = (d.st_mode & (S_ISVTX | S_IWOTH)) == (S_ISVTX | S_IWOTH);
 	if (shared && link->st_uid != geteuid() && link->st_uid != d.st_uid)
 		return core_fail(err, "",
-				 "refusing to follow a symbolic link of another user (uid %ld) in %s, a sticky directory anyone can write to: it could point at any file (the kernel's protected_symlinks rule); remove the link, or name the file itself",
-				 (long)link->st_uid, dir);
+				 "refusing to follow a symbolic link of another user (uid %ld) in a sticky directory anyone can write to, as the kernel's protected_symlinks rule does: remove the link, or name the file itself",
+				 (long)link->st_uid);
 	return true;
 }
 
