@@ -20,6 +20,11 @@
  *     handled inside service_input().  Callbacks are only ever called from
  *     service_input(): connections made by open() are reported by the
  *     first call.
+ *     Backpressure: before each read of input, service_input() asks
+ *     accepting() (when set); false means the daemon cannot take more now,
+ *     and the backend reads nothing more in this call, leaving the input
+ *     where the system keeps it (FIFO, device, sequencer queue) until a
+ *     later call.  What one read has delivered is always taken.
  *   - The output side runs on the output thread only: send() queues one
  *     complete message (status byte first: running status is not taken)
  *     for one output without blocking and returns false
@@ -52,6 +57,8 @@ enum midi_io_event {
 	MIDI_IO_INPUT_LOST,         /* index = source, or -1 for every source: an
 	                             * input queue overflowed and events were lost;
 	                             * any of them may have been a note-off */
+	MIDI_IO_NOTICE,             /* index = source or -1; name = one sentence
+	                             * for the log (e.g. a FIFO made again) */
 };
 
 struct midi_io_callbacks {
@@ -59,6 +66,8 @@ struct midi_io_callbacks {
 	void (*input)(void *context, uint8_t source, const uint8_t *bytes, size_t length);
 	/* name: the port or device concerned, e.g. "USB Keys:USB Keys MIDI 1" */
 	void (*event)(void *context, enum midi_io_event kind, int index, const char *name);
+	/* optional: false stops reading input for now (backpressure, above) */
+	bool (*accepting)(void *context);
 };
 
 struct midi_io_port_spec {

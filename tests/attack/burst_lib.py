@@ -104,7 +104,7 @@ class Synth:
         self.base = {}                    # (ch, key) -> pitch without the bends
         self.note_ons = 0
         self.note_offs = 0
-        self.pitches = []                 # pitch at each note-on
+        self.pitches = []                 # (pitch, half a bend step) at each note-on
         self.bends_under_notes = 0        # bend changes while the channel sounds
         self.bytes = 0
 
@@ -201,10 +201,11 @@ class Synth:
         if kind == 0x90 and d[1] > 0:
             key = d[0]
             self.held.discard((ch, key))
+            self.latched[ch].discard(key)     # a new note: sostenuto did not catch it
             self.down[(ch, key)] = self.down.get((ch, key), 0) + 1
             self.base[(ch, key)] = self.mts.get(key, float(key))
             self.note_ons += 1
-            self.pitches.append(self.pitch_now(ch, key))
+            self.pitches.append((self.pitch_now(ch, key), self.range[ch] / 16384))
         elif kind in (0x80, 0x90):
             self.note_offs += 1
             self.release(ch, d[0])
@@ -447,7 +448,7 @@ def print_figures(st, label):
         print("figures: %s: input %s" % (label, json.dumps(inp, sort_keys=True)), flush=True)
 
 
-def note_pairs(count, channel=0, low=45, high=88, velocity=100):
+def note_pairs(count, channel=0, low=48, high=88, velocity=100):
     """count note-on/note-off pairs, 6 bytes each, keys walking up and down."""
     out = bytearray()
     span = high - low + 1
