@@ -16,8 +16,6 @@
 #include <unistd.h>
 
 #define STOP_RETRY_MS 2000
-#define IDLE_FLUSH_MS 10
-#define IDLE_FLUSHES 5
 #define RETRY_FIRST_MS 1
 #define RETRY_MAX_MS 4
 #define BATCH_MESSAGES 256           /* per output per round, so none waits long */
@@ -61,6 +59,7 @@ void output_thread_init(struct output_thread *t)
 		t->blocked[i] = false;
 		t->blocked_logged_ms[i] = 0;
 	}
+	t->held_back = false;
 	t->input_wake_fd = -1;
 	log_ring_init(&t->log);
 }
@@ -147,7 +146,8 @@ static int drain_output(struct output_thread *t, int output, bool *more)
 	return count;
 }
 
-/* One round over every output; returns messages sent, sets *blocked. */
+/* One round over every output; returns messages sent, sets *blocked when
+ * a message was refused or the backend still holds some back. */
 static int drain(struct output_thread *t, bool *blocked, bool *more)
 {
 	int count = 0;
@@ -156,8 +156,9 @@ static int drain(struct output_thread *t, bool *blocked, bool *more)
 		count += drain_output(t, k, more);
 		*blocked |= t->blocked[k];
 	}
-	if (count || *blocked)
-		t->backend->flush(t->io); /* a flush may also free a blocked backend's buffer */
+	if (count || *blocked || t->held_back)
+		t->held_back = !t->backend->flush(t->io);
+	*blocked |= t->held_back;
 	return count;
 }
 
@@ -179,12 +180,12 @@ static void give_up(struct output_thread *t)
 			dropped += kind == MSG_MIDI;
 			msg_queue_release(t->messages, k);
 		}
-		if (!dropped)
+		if (!dropped && !t->held_back)
 			continue;
 		atomic_fetch_add_explicit(&t->send_drops[k], dropped, memory_order_relaxed);
 		log_ring_post(&t->log, LOG_LEVEL_ERROR,
-			      "output %s: its synth took nothing for %d ms at shutdown; %llu message(s) "
-			      "could not be sent (notes it was sending may hang there)",
+			      "output %s: its synth took nothing for %d ms at shutdown; %llu queued message(s) "
+			      "and what its port still held could not be sent (notes may hang there)",
 			      t->names[k], STOP_RETRY_MS, (unsigned long long)dropped);
 	}
 	wake_fd_signal(t->main_wake_fd);
@@ -194,38 +195,31 @@ void *output_thread_run(void *arg)
 {
 	struct output_thread *t = arg;
 	struct pollfd pfd = {.fd = t->wake_fd, .events = POLLIN};
-	int idle_flushes = 0, retry_ms = RETRY_FIRST_MS;
+	int retry_ms = RETRY_FIRST_MS;
 	int64_t stop_deadline = 0;
 	for (;;) {
 		wake_fd_clear(t->wake_fd);
 		bool stopping = atomic_load_explicit(&t->stop, memory_order_acquire);
 		bool blocked, more;
-		if (drain(t, &blocked, &more) > 0) {
-			idle_flushes = IDLE_FLUSHES;
+		if (drain(t, &blocked, &more) > 0)
 			retry_ms = RETRY_FIRST_MS;
-		} else if (blocked && retry_ms < RETRY_MAX_MS) {
+		else if (blocked && retry_ms < RETRY_MAX_MS)
 			retry_ms *= 2;
-		}
 		if (stopping) {
 			/* the input thread has stopped: nothing more can arrive */
 			if (!stop_deadline)
 				stop_deadline = monotonic_ms() + STOP_RETRY_MS;
-			if (left_over(t) == 0)
+			if (left_over(t) == 0 && !t->held_back)
 				break;
 			if (monotonic_ms() >= stop_deadline) {
 				give_up(t);
 				break;
 			}
 		}
-		int timeout = more ? 0 : blocked ? retry_ms : idle_flushes > 0 ? IDLE_FLUSH_MS : -1;
-		int r = poll(&pfd, 1, timeout);
-		if (r == 0 && !blocked && !more && idle_flushes > 0) {
-			/* let a backend finish a write it had to cut short */
-			t->backend->flush(t->io);
-			idle_flushes--;
-		}
+		/* idle (nothing queued, nothing held back): sleep until woken */
+		int timeout = more ? 0 : blocked ? retry_ms : -1;
+		(void)poll(&pfd, 1, timeout);
 	}
-	t->backend->flush(t->io);
 	return NULL;
 }
 

@@ -14,10 +14,13 @@
  * (`refused` counts the refusals).  The input thread, which decides what
  * goes into a ring, may ask to be woken when a ring has drained below a
  * level (room_wanted); this thread writes the input thread's eventfd then.
- * When told to stop, it drains everything left, still retrying, for up to
- * two seconds in all, so the last note-offs get out; what a synth that
- * never reads leaves after that is counted as dropped (send_drops) and
- * logged.  Idle, it sleeps with no timeout: no core spins.
+ * A flush that leaves bytes in the backend (its receiver is full) is tried
+ * again the same way, so the tail of a burst never waits for the next
+ * message.  When told to stop, it drains everything left, still retrying,
+ * for up to two seconds in all, so the last note-offs get out; what a synth
+ * that never reads leaves after that is counted as dropped (send_drops) and
+ * logged.  Idle (nothing queued or held back), it sleeps with no timeout:
+ * no core spins.
  *
  * Running status (running_status = yes) is applied here, only for the raw
  * backend, whose bytes go to the wire as they are: a channel message whose
@@ -64,6 +67,7 @@ struct output_thread {
 	pthread_t thread;
 	uint8_t wire_status[MIDI_IO_MAX_OUTPUTS];
 	bool blocked[MIDI_IO_MAX_OUTPUTS];   /* its head message was refused */
+	bool held_back;                  /* the last flush left bytes in the backend */
 	int64_t blocked_logged_ms[MIDI_IO_MAX_OUTPUTS];
 	uint8_t buffer[MSG_QUEUE_MESSAGE_MAX];
 };

@@ -518,7 +518,7 @@ static bool alsa_send(struct midi_io *io, int output, const uint8_t *bytes, size
 	return true;
 }
 
-static void alsa_flush(struct midi_io *io)
+static bool alsa_flush(struct midi_io *io)
 {
 	int r = snd_seq_drain_output(io->seq);
 	/* -EAGAIN: the kernel took part of it; the rest goes with the next
@@ -529,6 +529,7 @@ static void alsa_flush(struct midi_io *io)
 		if (io->output_count > 0)
 			atomic_fetch_add_explicit(&io->out[0].drops, 1, memory_order_relaxed);
 	}
+	return r == 0 || (r < 0 && r != -EAGAIN);
 }
 
 /* ---- open / close ----------------------------------------------------------- */

@@ -28,8 +28,9 @@
  *   - The output side runs on the output thread only: send() queues one
  *     complete message (status byte first: running status is not taken)
  *     for one output without blocking and returns false
- *     if it cannot (the caller counts a drop); flush() pushes queued
- *     messages out after a batch.
+ *     if it cannot (the caller tries it again later); flush() pushes queued
+ *     messages out after a batch and returns false while some are still
+ *     held back (the receiver is not reading): call it again later.
  *   - describe() (input thread) and list() (any thread, no open needed)
  *     report ports and connections as text lines for `latticed status`
  *     and `latticed ports`.
@@ -95,7 +96,7 @@ struct midi_io_backend {
 	int (*input_fds)(struct midi_io *io, struct pollfd *fds, int max, int *tick_ms);
 	void (*service_input)(struct midi_io *io);
 	bool (*send)(struct midi_io *io, int output, const uint8_t *bytes, size_t length);
-	void (*flush)(struct midi_io *io);
+	bool (*flush)(struct midi_io *io);
 	void (*describe)(struct midi_io *io, midi_io_line_fn line, void *context);
 	bool (*list)(midi_io_line_fn line, void *context, char *err, size_t err_size);
 	void (*close)(struct midi_io *io);

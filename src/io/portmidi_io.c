@@ -528,9 +528,10 @@ drop:
 	return false;
 }
 
-static void pm_flush(struct midi_io *io)
+static bool pm_flush(struct midi_io *io)
 {
 	(void)io; /* latency 0: every write went out at once */
+	return true;
 }
 
 static void pm_describe(struct midi_io *io, midi_io_line_fn line, void *context)

@@ -25,10 +25,12 @@
  * waits, retried on a 100 ms tick, and reports OUTPUT_CONNECTED when a
  * reader comes (the daemon then sends the synth set-up).  Until then, and
  * for an output with no path, messages are accepted and go nowhere, as on
- * a sequencer port nobody subscribed to.  A write that would block is
- * refused (the caller counts a drop); a write cut short keeps the rest in
- * a small per-output buffer written before anything else; a reader that
- * goes away (EPIPE; the daemon ignores SIGPIPE) or a device that fails
+ * a sequencer port nobody subscribed to.  send() puts a message in a small
+ * per-output buffer and flush() writes the buffer in one write (a batch of
+ * messages, one system call); a write cut short keeps the rest there, in
+ * order.  A message that finds the buffer full and the reader taking
+ * nothing is refused (the output thread tries it again later); a reader
+ * that goes away (EPIPE; the daemon ignores SIGPIPE) or a device that fails
  * makes the output wait again, reported as OUTPUT_GONE.
  *
  * Threads: the input side and the reopening run on the input thread, the
@@ -423,44 +425,39 @@ static bool write_pending(struct raw_output *out, int fd)
 	return out->pending_length == 0;
 }
 
+/* Messages collect in the output's buffer and go out in one write at the
+ * flush after each batch; a full buffer is written first, and refuses the
+ * message only if the reader still takes nothing. */
 static bool raw_send(struct midi_io *io, int output, const uint8_t *bytes, size_t length)
 {
-	if (output < 0 || output >= io->output_count)
+	if (output < 0 || output >= io->output_count || length > RAW_PENDING_MAX)
 		return false;
 	struct raw_output *out = &io->outputs[output];
 	int fd = atomic_load_explicit(&out->fd, memory_order_acquire);
 	if (fd < 0)
-		return true; /* nobody listens: nothing to drop */
-	if (!write_pending(out, fd)) {
+		return true; /* nobody listens: nothing to keep */
+	if (out->pending_length + length > sizeof out->pending) {
+		(void)write_pending(out, fd);
 		if (atomic_load_explicit(&out->fd, memory_order_relaxed) < 0)
-			return true;
+			return true; /* the reader went away */
 		if (out->pending_length + length > sizeof out->pending)
-			return false;
-		memcpy(out->pending + out->pending_length, bytes, length);
-		out->pending_length += length;
-		return true;
+			return false; /* would block: the caller tries again */
 	}
-	ssize_t n = write_some(out, fd, bytes, length);
-	if (n < 0)
-		return true; /* the reader went away with it */
-	if (n == 0)
-		return false; /* would block: the caller counts the drop */
-	if ((size_t)n < length) {
-		/* a message cut in two must still arrive whole, so keep the rest */
-		memcpy(out->pending, bytes + n, length - (size_t)n);
-		out->pending_length = length - (size_t)n;
-	}
+	memcpy(out->pending + out->pending_length, bytes, length);
+	out->pending_length += length;
 	return true;
 }
 
-static void raw_flush(struct midi_io *io)
+static bool raw_flush(struct midi_io *io)
 {
+	bool all = true;
 	for (int i = 0; i < io->output_count; i++) {
 		struct raw_output *out = &io->outputs[i];
 		int fd = atomic_load_explicit(&out->fd, memory_order_acquire);
-		if (fd >= 0)
-			(void)write_pending(out, fd);
+		if (fd >= 0 && !write_pending(out, fd))
+			all &= atomic_load_explicit(&out->fd, memory_order_relaxed) < 0;
 	}
+	return all;
 }
 
 static void raw_describe(struct midi_io *io, midi_io_line_fn line, void *context)

@@ -188,7 +188,7 @@ static void *output_thread(void *arg)
 			pthread_mutex_lock(&queue_lock);
 		}
 		pthread_mutex_unlock(&queue_lock);
-		backend->flush(io);
+		(void)backend->flush(io);
 		pthread_mutex_lock(&queue_lock);
 	}
 	pthread_mutex_unlock(&queue_lock);
