@@ -29,6 +29,13 @@
 #define LOAD_LOG_INTERVAL_MS 1000
 #define MARKER_SLOTS 1
 
+/* The reserve above the mark holds a System Reset's panic and set-up (the
+ * largest MUST message) even after the largest message below the mark. */
+_Static_assert(MSG_QUEUE_SLOTS - INPUT_HIGH_WATER - GUARD_EVENT_SLOTS >=
+	       GUARD_END_SLOTS_MAX + GUARD_SETUP_SLOTS, "the reserve is too small");
+_Static_assert(RECOVER_FILL + GUARD_END_SLOTS_MAX + GUARD_SETUP_SLOTS <= MSG_QUEUE_SLOTS,
+	       "a recovering output's panic and set-up must fit");
+
 static size_t fill_of(struct input_thread *t, const struct input_output *o)
 {
 	return msg_queue_fill(t->messages, o->index);

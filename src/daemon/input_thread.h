@@ -29,8 +29,9 @@
  *     continuous data is merged into the output's guard_store, given to the
  *     engine once the ring is below the mark again (output_guard.h);
  *   - note-offs, pedal releases and the rest of the MUST class always go,
- *     into the slots above the mark (the reserve, larger than what the
- *     engine can hold: 512 notes, 512 pass-through notes, their pedals);
+ *     into the slots above the mark (the reserve: after the largest single
+ *     message below the mark it still holds more than one panic can send,
+ *     with 512 notes, 512 pass-through notes and their pedals held);
  *   - when even the reserve lacks room for one, the input waits
  *     (backpressure): the message is held, the rest of what the backend
  *     delivered goes into the input_backlog, the backend is told to stop

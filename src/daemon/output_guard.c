@@ -16,8 +16,6 @@
 #define CHANNEL_FAN 17
 /* a preset or root change from the control channel: an MTS bulk dump */
 #define COMMAND_SLOTS 40
-/* panic and source ends: pedals, all-sound-off and all-notes-off per channel */
-#define END_CHANNEL_SLOTS (16 * 4 + 16)
 
 static bool bit(const uint8_t *bits, int i)
 {
@@ -63,7 +61,7 @@ enum guard_class guard_classify(const struct engine *e, const struct midi_msg *m
 
 int guard_end_slots(const struct engine *e)
 {
-	return e->note_count + passthrough_end_size(&e->passthrough) + END_CHANNEL_SLOTS;
+	return e->note_count + passthrough_end_size(&e->passthrough) + GUARD_END_CHANNEL_SLOTS;
 }
 
 int guard_must_slots(const struct engine *e, const struct midi_msg *m)

@@ -34,6 +34,7 @@
 
 #include "latticed/engine.h"
 #include "latticed/midi_msg.h"
+#include "latticed/passthrough.h"
 
 /* Slots one NOTE_ON, MERGE or SHED message can take at most: a note-on's
  * channel brought up to date (about 120 controllers), a stolen channel's
@@ -42,6 +43,12 @@
 #define GUARD_EVENT_SLOTS 320
 /* The synth set-up (engine_start): RPNs on every channel, a bulk dump. */
 #define GUARD_SETUP_SLOTS 320
+/* panic and source ends beyond the notes: pedals, all-sound-off and
+ * all-notes-off on every channel */
+#define GUARD_END_CHANNEL_SLOTS (16 * 4 + 16)
+/* The most engine_panic can send: every note, every pass-through note and
+ * pedal (guard_end_slots is never more). */
+#define GUARD_END_SLOTS_MAX (ENGINE_MAX_NOTES + PASSTHROUGH_MAX_NOTES + 32 + GUARD_END_CHANNEL_SLOTS)
 
 enum guard_class { GUARD_MUST, GUARD_NOTE_ON, GUARD_MERGE, GUARD_SHED };
 

@@ -464,6 +464,10 @@ static void alsa_service_input(struct midi_io *io)
 	/* Until the kernel has nothing more: events already in alsa-lib's
 	 * buffer would not wake poll() again. */
 	for (;;) {
+		/* backpressure: the rest waits in the sequencer's queue (which
+		 * may then overflow: INPUT_LOST ends the notes, none hangs) */
+		if (io->cb.accepting && !io->cb.accepting(io->cb.context))
+			break;
 		snd_seq_event_t *ev = NULL;
 		int r = snd_seq_event_input(io->seq, &ev);
 		if (r == -EAGAIN)

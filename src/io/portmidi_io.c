@@ -424,7 +424,8 @@ static void pm_service_input(struct midi_io *io)
 
 	/* Read under the lock, convert and deliver without it; each round
 	 * takes one chunk from every input, so no input starves another. */
-	for (bool more = true; more;) {
+	/* backpressure: stop between rounds; the rest waits in PortMidi's buffer */
+	for (bool more = true; more && (!io->cb.accepting || io->cb.accepting(io->cb.context));) {
 		struct pending_input pending[MIDI_IO_MAX_SOURCES];
 		int n = 0;
 		more = false;

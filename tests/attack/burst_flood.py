@@ -129,6 +129,14 @@ def main():
         burst_plain(d)
         burst_pedals(d)
         burst_wheel(d)
+        # the same figures in the text form of status, for people (our rule)
+        st = d.status()
+        rc, text, err = d.client("status")
+        for o in st.get("outputs", []):
+            shed = o.get("shed", {})
+            line = "under load: %d new notes and %d system messages left out, %d controller values merged" % (
+                shed.get("note_ons", -1), shed.get("system", -1), shed.get("values_merged", -1))
+            check(rc == 0 and line in text, "latticed status shows output %s's figures: %s" % (o["name"], line))
         rc = d.stop()
         check(rc == 0, "SIGTERM: exit status 0 (%s)" % rc)
         d.poll()
