@@ -28,12 +28,14 @@
 #define WAIT_POLL_MS 5
 #define LOAD_LOG_INTERVAL_MS 1000
 #define MARKER_SLOTS 1
+#define RESET_CONTROLS 3                     /* per channel, at a reconnection */
 
 /* The reserve above the mark holds a System Reset's panic and set-up (the
  * largest MUST message) even after the largest message below the mark. */
 _Static_assert(MSG_QUEUE_SLOTS - INPUT_HIGH_WATER - GUARD_EVENT_SLOTS >=
 	       GUARD_END_SLOTS_MAX + GUARD_SETUP_SLOTS, "the reserve is too small");
-_Static_assert(RECOVER_FILL + GUARD_END_SLOTS_MAX + GUARD_SETUP_SLOTS <= MSG_QUEUE_SLOTS,
+_Static_assert(RECOVER_FILL + GUARD_END_SLOTS_MAX + GUARD_SETUP_SLOTS + 16 * RESET_CONTROLS <=
+	       MSG_QUEUE_SLOTS,
 	       "a recovering output's panic and set-up must fit");
 
 static size_t fill_of(struct input_thread *t, const struct input_output *o)
@@ -426,18 +428,40 @@ static void recover(struct input_thread *t, struct input_output *o)
 	flush_store(t, o);
 }
 
+/* After a synth went away: sustain and sostenuto up and All Notes Off on
+ * all 16 channels, for what it may still sound from before (the engine
+ * ends only what it knows of, on the channels it uses). */
+static void all_notes_off_everywhere(struct input_thread *t, struct input_output *o)
+{
+	static const uint8_t controls[RESET_CONTROLS][2] = {{64, 0}, {66, 0}, {123, 0}};
+	for (int ch = 0; ch < 16; ch++)
+		for (int i = 0; i < RESET_CONTROLS; i++) {
+			uint8_t bytes[3] = {(uint8_t)(MIDI_CONTROL | ch), controls[i][0], controls[i][1]};
+			if (msg_queue_push(t->messages, o->index, bytes, sizeof bytes))
+				o->queued++;
+		}
+	t->wake_output = true;
+}
+
 static void reconnect(struct input_thread *t, struct input_output *o)
 {
 	if (!o->reconnect_pending || o->cut_off)
 		return;
-	int slots = MARKER_SLOTS + GUARD_SETUP_SLOTS + (o->was_gone ? guard_end_slots(&o->engine) : 0);
+	int slots = MARKER_SLOTS + GUARD_SETUP_SLOTS +
+		    (o->was_gone ? guard_end_slots(&o->engine) + 16 * RESET_CONTROLS : 0);
 	if (!room_for(t, o, slots) || o->cut_off)
 		return;
 	/* the new receiver knows no running status: tell the output thread first */
 	if (msg_queue_push_marker(t->messages, o->index, MSG_RECONNECTED))
 		t->wake_output = true;
-	if (o->was_gone)
-		engine_panic(&o->engine); /* whatever the old connection left sounding */
+	if (o->was_gone) {
+		/* whatever the old connection left sounding (a synth only unsubscribed) */
+		log_ring_post(&t->log, LOG_LEVEL_INFO,
+			      "output %s: ending every note first (%d held), in case the synth kept some",
+			      o->name, o->engine.note_count + passthrough_held(&o->engine.passthrough));
+		engine_panic(&o->engine);
+		all_notes_off_everywhere(t, o);
+	}
 	engine_start(&o->engine);
 	o->reconnect_pending = false;
 	o->was_gone = false;

@@ -110,15 +110,12 @@ static void on_event(void *context, enum midi_io_event kind, int index, const ch
 		struct input_output *o = &t->outputs[index];
 		if (kind == MIDI_IO_OUTPUT_CONNECTED) {
 			log_ring_post(&t->log, LOG_LEVEL_INFO,
-				      o->was_gone ? "output %s: connected to %s again; ending what it may still "
-						    "sound, then sending its set-up"
-						  : "output %s: connected to %s; sending its set-up", o->name, what);
+				      "output %s: connected to %s; sending its set-up", o->name, what);
 			feed_output_connected(t, o);
 		} else {
 			o->was_gone = true;
 			log_ring_post(&t->log, LOG_LEVEL_NOTICE,
-				      "output %s: %s went away; nothing listens now (its notes are ended when "
-				      "a synth connects there again)", o->name, what);
+				      "output %s: %s went away; nothing listens now", o->name, what);
 		}
 	}
 	t->wake_main = true;

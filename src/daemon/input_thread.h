@@ -43,9 +43,9 @@
  *     has drained every note it holds is ended (engine_panic) before it
  *     hears the input again.
  * A synth that is gone (OUTPUT_GONE) keeps its engine's notes; when one
- * connects there again, every note is ended for it first (note-offs,
- * pedals up, all-notes-off), then it gets its set-up, so a synth that was
- * only unsubscribed has nothing left hanging.
+ * connects there again, every note is ended for it first (engine_panic,
+ * then pedals up and All Notes Off on all 16 channels), then it gets its
+ * set-up, so a synth that was only unsubscribed has nothing left hanging.
  *
  * Nothing in the loop allocates, locks or prints.  The waits are bounded:
  * a held message waits at most INPUT_CUT_OFF_MS (polling every few ms), the

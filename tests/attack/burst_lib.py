@@ -292,20 +292,39 @@ class FifoReader(threading.Thread):
     def run(self):
         while True:
             self.reading.wait()
-            r, _, _ = select.select([self.fd], [], [], 0.02)
-            if not r or not self.reading.is_set():
+            with self.lock:
+                fd = self.fd
+            if fd < 0:
+                time.sleep(0.01)
                 continue
             try:
-                data = os.read(self.fd, 65536)
+                r, _, _ = select.select([fd], [], [], 0.02)
+                if not r or not self.reading.is_set():
+                    continue
+                with self.lock:
+                    data = os.read(fd, 65536) if fd == self.fd else b""
             except BlockingIOError:
                 continue
-            except OSError:
-                return
+            except (OSError, ValueError):
+                continue
             if not data:
                 time.sleep(0.01)
                 continue
             with self.lock:
                 self.buf += data
+
+    def hang_up(self):
+        """The synth closes the FIFO (unsubscribes) but keeps sounding."""
+        self.stall()
+        time.sleep(0.1)
+        self.poll()
+        with self.lock:
+            os.close(self.fd)
+            self.fd = -1
+
+    def connect_again(self):
+        self.fd = os.open(self.path, os.O_RDONLY | os.O_NONBLOCK)
+        self.resume()
 
     def stall(self):
         self.reading.clear()
