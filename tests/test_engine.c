@@ -397,6 +397,57 @@ static void passthrough_and_system(void **state)
 	EXPECT(0xF8, 0xF0, 0x7D, 0x01, 0x02, 0xF7);
 }
 
+/* Pass-through notes end like retuned ones (our rule): a source that goes
+ * takes its own notes and pedals with it, a panic ends the rest. */
+static void passthrough_notes_end_with_their_source_and_at_a_panic(void **state)
+{
+	(void)state;
+	struct engine_spec s = default_spec(RETUNE_BEND);
+	s.output.channels = 0x01FE; /* 2-9: channels 10 and 12 pass through */
+	start(&s);
+	struct midi_msg kick = midi_msg_note_on(9, 36, 100), pedal = midi_msg_control(9, 64, 127);
+	struct midi_msg bass = midi_msg_note_on(11, 40, 90), hat = midi_msg_note_on(9, 42, 80);
+	struct midi_msg hat_up = midi_msg_note_off(9, 42, 0);
+	engine_handle(&h.engine, 0, &kick);
+	engine_handle(&h.engine, 1, &pedal);
+	engine_handle(&h.engine, 1, &bass);
+	engine_handle(&h.engine, 1, &hat);
+	engine_handle(&h.engine, 1, &hat_up); /* rings on under the pedal */
+	harness_send(&h, 0x90, 60, 100);      /* a retuned note of source 0 */
+	harness_clear(&h);
+	engine_end_source(&h.engine, 1);
+	EXPECT(0x8B, 40, 64, 0xB9, 64, 0);    /* source 1's bass, then its pedal */
+	assert_int_equal(model_sounding_count(&model), 2);
+	engine_panic(&h.engine);
+	assert_int_equal(model_sounding_count(&model), 0);
+	assert_true(log_contains(0x89, 36, 64));
+	harness_clear(&h);
+	engine_panic(&h.engine);              /* nothing left to end on 10 and 12 */
+	assert_false(log_contains(0x89, 36, 64));
+	assert_int_equal(model.violations, 0);
+}
+
+/* A table of held pass-through notes is bounded like the engine's own:
+ * a note-on beyond it is dropped and counted, not passed on unended. */
+static void passthrough_notes_beyond_the_table_are_dropped(void **state)
+{
+	(void)state;
+	struct engine_spec s = default_spec(RETUNE_BEND);
+	start(&s);
+	for (int i = 0; i < PASSTHROUGH_MAX_NOTES; i++) {
+		struct midi_msg on = midi_msg_note_on(9, (uint8_t)(i % 128), 100);
+		engine_handle(&h.engine, (uint8_t)(i / 128), &on);
+	}
+	harness_clear(&h);
+	struct midi_msg one_more = midi_msg_note_on(9, 0, 100);
+	engine_handle(&h.engine, 15, &one_more);
+	expect_bytes(NULL, 0);
+	assert_int_equal(h.engine.stats.notes_dropped, 1);
+	assert_true(engine_take_notices(&h.engine) & NOTICE_NOTES_FULL);
+	engine_panic(&h.engine);
+	assert_int_equal(model_sounding_count(&model), 0);
+}
+
 static void presets_and_roots_apply_to_new_notes(void **state)
 {
 	(void)state;
@@ -959,10 +1010,21 @@ static void run_random(const char *name, struct engine_spec spec, uint64_t seed,
 			r.root_slot = rng_below(&g, lattices[r.preset].tone_count + 1);
 			harness_send(&h, (uint8_t)(0xB0 | spec.control.channel), 20, (uint8_t)r.root_slot);
 		} else if (action < 960) {
-			/* drums on channel 10 pass through, a hit and its release */
+			/* drums on channel 10 pass through: a hit and its release,
+			 * or (when 10 is not retuned) a hit held until its release,
+			 * a panic or the end, which must end it */
 			uint8_t key = (uint8_t)rng_below(&g, 128);
-			harness_send(&h, 0x99, key, (uint8_t)(1 + rng_below(&g, 127)));
-			harness_send(&h, 0x89, key, 0);
+			bool passes = !((spec.input.channels >> 9) & 1);
+			if (passes && r.down[9][key]) {
+				harness_send(&h, 0x89, key, 0);
+				r.down[9][key] = false;
+			} else if (passes && rng_below(&g, 2)) {
+				harness_send(&h, 0x99, key, (uint8_t)(1 + rng_below(&g, 127)));
+				r.down[9][key] = true;
+			} else {
+				harness_send(&h, 0x99, key, (uint8_t)(1 + rng_below(&g, 127)));
+				harness_send(&h, 0x89, key, 0);
+			}
 		} else if (action < 962) {
 			/* the player's own all-notes-off */
 			harness_send(&h, (uint8_t)(0xB0 | in_ch), 123, 0);
@@ -1070,6 +1132,8 @@ int main(void)
 		cmocka_unit_test(pressure_and_aftertouch),
 		cmocka_unit_test(controllers_sync_lazily),
 		cmocka_unit_test(passthrough_and_system),
+		cmocka_unit_test(passthrough_notes_end_with_their_source_and_at_a_panic),
+		cmocka_unit_test(passthrough_notes_beyond_the_table_are_dropped),
 		cmocka_unit_test(presets_and_roots_apply_to_new_notes),
 		cmocka_unit_test(reserved_keys_steer),
 		cmocka_unit_test(panic_and_vanished_source),

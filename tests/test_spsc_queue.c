@@ -131,16 +131,22 @@ static void indices_wrap_around(void **state)
 	}
 }
 
-/* ---- msg_queue: whole messages over several slots ----------------------- */
+/* ---- msg_queue: whole messages over several slots, a ring per output ----- */
 
 static struct msg_queue mq;
+
+static size_t peek(int output, enum msg_kind *kind, uint8_t *buf)
+{
+	return msg_queue_peek(&mq, output, kind, buf, MSG_QUEUE_MESSAGE_MAX);
+}
 
 static void messages_whole_or_not_at_all(void **state)
 {
 	(void)state;
 	msg_queue_init(&mq);
-	uint8_t out, buf[MSG_QUEUE_MESSAGE_MAX];
-	assert_int_equal(msg_queue_pop(&mq, &out, buf, sizeof buf), 0);
+	static uint8_t buf[MSG_QUEUE_MESSAGE_MAX];
+	enum msg_kind kind;
+	assert_int_equal(peek(2, &kind, buf), 0);
 	/* a note-on, then a SysEx of 100 bytes (4 slots), then a clock */
 	uint8_t note[3] = {0x91, 60, 100}, sysex[100], clock = 0xF8;
 	sysex[0] = 0xF0;
@@ -148,36 +154,63 @@ static void messages_whole_or_not_at_all(void **state)
 		sysex[i] = (uint8_t)i;
 	sysex[99] = 0xF7;
 	assert_true(msg_queue_push(&mq, 2, note, 3));
-	assert_true(msg_queue_push(&mq, 5, sysex, sizeof sysex));
-	assert_true(msg_queue_push(&mq, 0, &clock, 1));
-	assert_int_equal(msg_queue_pop(&mq, &out, buf, sizeof buf), 3);
-	assert_int_equal(out, 2);
+	assert_true(msg_queue_push(&mq, 2, sysex, sizeof sysex));
+	assert_true(msg_queue_push(&mq, 2, &clock, 1));
+	assert_int_equal(msg_queue_fill(&mq, 2), 6);
+	assert_int_equal(peek(2, &kind, buf), 3);
+	assert_int_equal(kind, MSG_MIDI);
 	assert_memory_equal(buf, note, 3);
-	assert_int_equal(msg_queue_pop(&mq, &out, buf, sizeof buf), 100);
-	assert_int_equal(out, 5);
+	/* not taken until released: a refused message is there again */
+	assert_int_equal(peek(2, &kind, buf), 3);
+	msg_queue_release(&mq, 2);
+	assert_int_equal(peek(2, &kind, buf), 100);
 	assert_memory_equal(buf, sysex, 100);
-	assert_int_equal(msg_queue_pop(&mq, &out, buf, sizeof buf), 1);
+	msg_queue_release(&mq, 2);
+	assert_int_equal(peek(2, &kind, buf), 1);
 	assert_int_equal(buf[0], 0xF8);
-	assert_int_equal(msg_queue_pop(&mq, &out, buf, sizeof buf), 0);
+	msg_queue_release(&mq, 2);
+	assert_int_equal(peek(2, &kind, buf), 0);
+	assert_int_equal(msg_queue_fill(&mq, 2), 0);
 
 	/* fill to the last slot: a 2-slot message no longer fits, a 1-slot one does */
 	size_t pushed = 0;
-	while (msg_queue_has_room(&mq, 3 * MSG_QUEUE_SLOT_BYTES)) {
-		uint8_t big[3 * MSG_QUEUE_SLOT_BYTES] = {0xF0};
-		big[sizeof big - 1] = 0xF7;
+	uint8_t big[3 * MSG_QUEUE_SLOT_BYTES] = {0xF0};
+	big[sizeof big - 1] = 0xF7;
+	while (msg_queue_room(&mq, 1) >= 3) {
 		assert_true(msg_queue_push(&mq, 1, big, sizeof big));
 		pushed++;
 	}
 	assert_int_equal(pushed, MSG_QUEUE_SLOTS / 3);
-	size_t left = MSG_QUEUE_SLOTS - pushed * 3; /* 8192 = 3*2730 + 2 */
-	assert_int_equal(left, 2);
-	uint8_t three[3 * MSG_QUEUE_SLOT_BYTES] = {0};
-	assert_false(msg_queue_push(&mq, 1, three, sizeof three));
-	assert_true(msg_queue_push(&mq, 1, three, 2 * MSG_QUEUE_SLOT_BYTES));
+	size_t left = MSG_QUEUE_SLOTS - pushed * 3; /* 4096 = 3*1365 + 1 */
+	assert_int_equal(left, 1);
+	assert_false(msg_queue_push(&mq, 1, big, 2 * MSG_QUEUE_SLOT_BYTES));
+	assert_true(msg_queue_push(&mq, 1, note, 3));
 	assert_false(msg_queue_push(&mq, 1, note, 3));
+	/* the other rings are not touched by a full one */
+	assert_int_equal(msg_queue_room(&mq, 0), MSG_QUEUE_SLOTS);
+	assert_true(msg_queue_push(&mq, 0, note, 3));
 	/* too long or empty never fits */
-	assert_false(msg_queue_has_room(&mq, 0));
-	assert_false(msg_queue_has_room(&mq, MSG_QUEUE_MESSAGE_MAX + 1));
+	static uint8_t huge[MSG_QUEUE_MESSAGE_MAX + 1];
+	assert_false(msg_queue_push(&mq, 3, huge, sizeof huge));
+	assert_false(msg_queue_push(&mq, 3, note, 0));
+	assert_int_equal(msg_queue_fill(&mq, 3), 0);
+}
+
+static void a_marker_takes_one_slot(void **state)
+{
+	(void)state;
+	msg_queue_init(&mq);
+	static uint8_t buf[MSG_QUEUE_MESSAGE_MAX];
+	enum msg_kind kind;
+	uint8_t note[3] = {0x90, 60, 100};
+	assert_true(msg_queue_push_marker(&mq, 4, MSG_RECONNECTED));
+	assert_true(msg_queue_push(&mq, 4, note, 3));
+	assert_int_equal(msg_queue_fill(&mq, 4), 2);
+	assert_int_equal(peek(4, &kind, buf), 1);
+	assert_int_equal(kind, MSG_RECONNECTED);
+	msg_queue_release(&mq, 4);
+	assert_int_equal(peek(4, &kind, buf), 3);
+	assert_int_equal(kind, MSG_MIDI);
 }
 
 struct mq_shared {
@@ -200,7 +233,7 @@ static void *mq_produce(void *arg)
 	uint8_t buf[400];
 	for (uint32_t i = 0; i < ITEMS / 4;) {
 		size_t length = message_of(i, buf);
-		if (msg_queue_push(&s->q, (uint8_t)(i % 8), buf, length))
+		if (msg_queue_push(&s->q, (int)(i % 8), buf, length))
 			i++;
 		else
 			s->refused++;
@@ -217,19 +250,27 @@ static void message_threads_keep_order(void **state)
 	pthread_t producer;
 	assert_int_equal(pthread_create(&producer, NULL, mq_produce, &s), 0);
 	static uint8_t got[MSG_QUEUE_MESSAGE_MAX];
-	uint8_t want[400], out;
-	for (uint32_t i = 0; i < ITEMS / 4;) {
-		size_t n = msg_queue_pop(&s.q, &out, got, sizeof got);
-		if (n == 0)
-			continue;
-		size_t length = message_of(i, want);
-		if (n != length || out != i % 8 || memcmp(got, want, length) != 0)
-			fail_msg("message %u: %zu bytes for output %u, wanted %zu for %u", i, n, out,
-				 length, i % 8);
-		i++;
+	uint8_t want[400];
+	enum msg_kind kind;
+	uint32_t next[8] = {0, 1, 2, 3, 4, 5, 6, 7}; /* the next message expected per output */
+	uint32_t done = 0;
+	while (done < ITEMS / 4) {
+		for (int k = 0; k < 8; k++) {
+			size_t n = msg_queue_peek(&s.q, k, &kind, got, sizeof got);
+			if (n == 0)
+				continue;
+			uint32_t i = next[k];
+			size_t length = message_of(i, want);
+			if (n != length || kind != MSG_MIDI || memcmp(got, want, length) != 0)
+				fail_msg("output %d: message %u has %zu bytes, wanted %zu", k, i, n, length);
+			msg_queue_release(&s.q, k);
+			next[k] += 8;
+			done++;
+		}
 	}
 	assert_int_equal(pthread_join(producer, NULL), 0);
-	assert_int_equal(msg_queue_pop(&s.q, &out, got, sizeof got), 0);
+	for (int k = 0; k < 8; k++)
+		assert_int_equal(msg_queue_peek(&s.q, k, &kind, got, sizeof got), 0);
 }
 
 int main(void)
@@ -239,6 +280,7 @@ int main(void)
 		cmocka_unit_test(full_queue_refuses_and_keeps_items),
 		cmocka_unit_test(indices_wrap_around),
 		cmocka_unit_test(messages_whole_or_not_at_all),
+		cmocka_unit_test(a_marker_takes_one_slot),
 		cmocka_unit_test(message_threads_keep_order),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);

@@ -52,6 +52,7 @@
 #include "latticed/keymap.h"
 #include "latticed/lattice.h"
 #include "latticed/midi_msg.h"
+#include "latticed/passthrough.h"
 #include "latticed/retune_table.h"
 
 #define ENGINE_MAX_PRESETS 32
@@ -205,6 +206,7 @@ struct engine {
 	uint8_t mts_held[128][3];        /* words the synth holds (mts) */
 	bool mts_held_known[128];
 	int reserved_root_keys;
+	struct passthrough passthrough;  /* notes on channels not retuned */
 
 	uint32_t notices;
 	uint32_t notices_reported;
@@ -224,11 +226,14 @@ void engine_start(struct engine *e);
 /* Handles one message from input `source` (0..ENGINE_MAX_SOURCES-1). */
 void engine_handle(struct engine *e, uint8_t source, const struct midi_msg *m);
 
-/* Ends every note that `source` started (its device went away). */
+/* Ends every note that `source` started (its device went away), the
+ * pass-through ones too, and lets go of the pedals it put down. */
 void engine_end_source(struct engine *e, uint8_t source);
 
 /* Note-off for every note, then all-sound-off and all-notes-off on every
- * channel the output uses.  Keys still held play nothing until pressed again. */
+ * channel the output uses, then a note-off for every pass-through note and
+ * pedal-up for every pass-through pedal.  Keys still held play nothing
+ * until pressed again. */
 void engine_panic(struct engine *e);
 
 /* Tuning changes for new notes.  Return false if out of range. */

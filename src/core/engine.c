@@ -58,6 +58,11 @@ static void emit(struct engine *e, const struct midi_msg *m)
 	e->emit(e->context, m);
 }
 
+static void emit_for(void *engine, const struct midi_msg *m)
+{
+	emit(engine, m);
+}
+
 static void emit3(struct engine *e, uint8_t status, uint8_t d1, uint8_t d2)
 {
 	struct midi_msg m = {0};
@@ -1073,6 +1078,11 @@ static void channel_message(struct engine *e, uint8_t source, const struct midi_
 			notice(e, NOTICE_PASSTHROUGH_BLOCKED);
 			return;
 		}
+		if (!passthrough_record(&e->passthrough, source, m)) {
+			e->stats.notes_dropped++;
+			notice(e, NOTICE_NOTES_FULL);
+			return;
+		}
 		emit(e, m);
 		return;
 	}
@@ -1152,6 +1162,7 @@ void engine_end_source(struct engine *e, uint8_t source)
 		if (c->sostenuto && c->sostenuto_source == source)
 			control_change(e, source, ch, 66, 0);
 	}
+	passthrough_end(&e->passthrough, source, emit_for, e);
 }
 
 void engine_panic(struct engine *e)
@@ -1176,6 +1187,7 @@ void engine_panic(struct engine *e)
 		send_cc(e, ch, 120, 0, true);
 		send_cc(e, ch, 123, 0, true);
 	}
+	passthrough_end(&e->passthrough, PASSTHROUGH_ALL_SOURCES, emit_for, e);
 }
 
 uint32_t engine_take_notices(struct engine *e)

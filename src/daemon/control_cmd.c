@@ -203,6 +203,27 @@ static void print_duration(double seconds)
 		printf("%ld h %02ld min", s / 3600, (s / 60) % 60);
 }
 
+/* One output's traffic: sent, waiting, what load made it leave out. */
+static void print_output_load(struct json_object *o)
+{
+	struct json_object *shed = member(o, "shed");
+	printf("output %s (%s): %lld messages sent, %lld queue slots waiting%s\n",
+	       str(o, "name"), str(o, "method"), (long long)num(o, "sent"),
+	       (long long)num(o, "waiting"),
+	       json_object_get_boolean(member(o, "cut_off")) ? ", cut off until its synth reads" : "");
+	printf("  under load: %lld new notes and %lld system messages left out, %lld controller values merged; "
+	       "the port refused %lld times (each retried)",
+	       shed ? (long long)num(shed, "note_ons") : 0, shed ? (long long)num(shed, "system") : 0,
+	       shed ? (long long)num(shed, "values_merged") : 0, (long long)num(o, "refused"));
+	if (num(o, "cut_offs"))
+		printf("; cut off %lld times (%lld messages left out meanwhile)", (long long)num(o, "cut_offs"),
+		       shed ? (long long)num(shed, "while_cut_off") : 0);
+	if (num(o, "queue_drops") || num(o, "send_drops"))
+		printf("; lost: %lld (queue full), %lld (not taken at shutdown)",
+		       (long long)num(o, "queue_drops"), (long long)num(o, "send_drops"));
+	printf("\n");
+}
+
 static void print_status(struct json_object *st)
 {
 	printf("latticed %s, pid %lld, up ", str(st, "version"), (long long)num(st, "pid"));
@@ -239,13 +260,16 @@ static void print_status(struct json_object *st)
 			printf("\n");
 		}
 	}
+	struct json_object *input = member(st, "input");
+	if (input && num(input, "pauses"))
+		printf("input: waited %lld times for room on an output, %lld ms in all%s\n",
+		       (long long)num(input, "pauses"), (long long)num(input, "paused_ms"),
+		       json_object_get_boolean(member(input, "waiting")) ? " (waiting now)" : "");
 	struct json_object *outputs = member(st, "outputs");
 	for (size_t i = 0; outputs && i < json_object_array_length(outputs); i++) {
 		struct json_object *o = json_object_array_get_idx(outputs, i);
 		struct json_object *stats = member(o, "stats");
-		printf("output %s (%s): %lld messages sent, dropped: %lld (queue full), %lld (refused by the port)\n",
-		       str(o, "name"), str(o, "method"), (long long)num(o, "sent"),
-		       (long long)num(o, "queue_drops"), (long long)num(o, "send_drops"));
+		print_output_load(o);
 		if (stats)
 			printf("  notes: %lld played, %lld shared a channel, %lld stolen, %lld dropped, %lld on silent keys; %lld bends clamped\n",
 			       (long long)num(stats, "notes_on"), (long long)num(stats, "notes_shared"),
@@ -253,7 +277,10 @@ static void print_status(struct json_object *st)
 			       (long long)num(stats, "silent_keys"), (long long)num(stats, "bends_clamped"));
 		struct json_object *notes = member(o, "notes");
 		size_t n = notes ? json_object_array_length(notes) : 0;
-		printf("  held notes: %lld\n", (long long)num(o, "notes_held"));
+		printf("  held notes: %lld", (long long)num(o, "notes_held"));
+		if (num(o, "passthrough_notes"))
+			printf(", and %lld on pass-through channels", (long long)num(o, "passthrough_notes"));
+		printf("\n");
 		if (n)
 			printf("    src ch key  tone         ratio          cents  ->  ch key\n");
 		for (size_t k = 0; k < n; k++) {

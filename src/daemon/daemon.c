@@ -700,6 +700,7 @@ int daemon_run(const struct daemon_options *options)
 	d.in->main_wake_fd = d.main_wake_fd;
 	d.out->messages = d.messages;
 	d.out->main_wake_fd = d.main_wake_fd;
+	d.out->input_wake_fd = d.in->wake_fd;
 	d.out->output_count = d.cfg->output_count;
 	for (int i = 0; i < d.cfg->output_count; i++) {
 		snprintf(d.out->names[i], sizeof d.out->names[i], "%s", d.cfg->outputs[i].name);

@@ -20,11 +20,14 @@
 #include <string.h>
 #include <time.h>
 
+#include "input_feed.h"
 #include "latticed/midi_encoder.h"
+#include "latticed/passthrough.h"
 #include "output_thread.h"
 #include "snapshot.h"
 
 #define SHUTDOWN_WAIT_MS 2000
+#define COMMAND_SLOTS 40             /* a preset, root or tuning change: an MTS bulk dump */
 #define DROP_LOG_INTERVAL_MS 1000
 #define RETIRED_CHECK_MS 200
 
@@ -38,39 +41,29 @@ static void note_queue_drop(struct input_thread *t, struct input_output *o)
 	int64_t now = monotonic_ms();
 	if (o->drops_logged && now - o->drop_logged_ms < DROP_LOG_INTERVAL_MS)
 		return;
-	log_ring_post(&t->log, LOG_LEVEL_WARNING,
-		      "output %s: the output queue was full, %llu message(s) dropped so far",
-		      o->name, (unsigned long long)o->queue_drops);
+	log_ring_post(&t->log, LOG_LEVEL_ERROR,
+		      "output %s: a message found its queue full after room was checked (%llu so far; "
+		      "a latticed bug, please report it)", o->name, (unsigned long long)o->queue_drops);
 	o->drops_logged = o->queue_drops;
 	o->drop_logged_ms = now;
 	t->wake_main = true;
 }
 
-/* The engine's callback: one message for output o. */
+/* The engine's callback: one message for output o.  Room was checked
+ * before the engine got the message that made it (input_feed.c). */
 static void emit(void *context, const struct midi_msg *m)
 {
 	struct input_output *o = context;
 	struct input_thread *t = o->owner;
+	if (o->cut_off)
+		return; /* its recovery ends every note and sends the set-up again */
 	size_t n = midi_msg_encode(m, t->encode_buffer, sizeof t->encode_buffer);
 	if (n == 0)
 		return; /* the engine only makes valid messages; nothing to send */
 	if (!msg_queue_push(t->messages, o->index, t->encode_buffer, n)) {
-		if (t->shutting_down) {
-			/* the last note-offs: worth a short wait */
-			int64_t give_up = monotonic_ms() + SHUTDOWN_WAIT_MS;
-			const struct timespec pause = {0, 1000000};
-			wake_fd_signal(t->output_wake_fd);
-			while (!msg_queue_push(t->messages, o->index, t->encode_buffer, n)) {
-				if (monotonic_ms() > give_up) {
-					note_queue_drop(t, o);
-					return;
-				}
-				nanosleep(&pause, NULL);
-			}
-		} else {
-			note_queue_drop(t, o);
-			return;
-		}
+		note_queue_drop(t, o);
+		feed_cut_off(t, o, "a message found no room in its queue");
+		return;
 	}
 	o->queued++;
 	t->wake_output = true;
@@ -95,95 +88,32 @@ static void on_input(void *context, uint8_t source, const uint8_t *bytes, size_t
 	struct input_thread *t = context;
 	if (source >= MIDI_IO_MAX_SOURCES)
 		source = MIDI_IO_MAX_SOURCES - 1;
-	struct input_source *s = &t->sources[source];
-	s->seen = true;
-	for (size_t i = 0; i < length; i++) {
-		struct midi_msg m;
-		if (!midi_parser_feed(&s->parser, bytes[i], &m))
-			continue;
-		s->messages++;
-		for (int k = 0; k < t->output_count; k++)
-			engine_handle(&t->outputs[k].engine, source, &m);
-	}
+	feed_input(t, source, bytes, length);
 	wake_others(t); /* the first note of a chord goes before the parser reads on */
 }
 
-/*
- * The backend lost input events (a queue overflowed: we did not read in
- * time).  Any of them may have been a note-off or a pedal let go, so the
- * notes of the sources concerned are ended, as if their device had gone,
- * rather than left to hang until a panic.  Keys still down sound again
- * when pressed again.
- */
-static void input_lost(struct input_thread *t, int index, const char *what)
+static bool on_accepting(void *context)
 {
-	int ended = 0;
-	for (int s = 0; s < MIDI_IO_MAX_SOURCES; s++) {
-		if (index >= 0 && s != index)
-			continue;
-		midi_parser_reset(&t->sources[s].parser); /* a SysEx may have lost its end */
-		for (int k = 0; k < t->output_count; k++) {
-			ended += t->outputs[k].engine.note_count;
-			engine_end_source(&t->outputs[k].engine, (uint8_t)s);
-			ended -= t->outputs[k].engine.note_count;
-		}
-	}
-	t->inputs_lost++;
-	int64_t now = monotonic_ms();
-	if (t->inputs_lost_logged && now - t->input_lost_logged_ms < DROP_LOG_INTERVAL_MS)
-		return;
-	char from[MIDI_IO_NAME_MAX * 2 + 8];
-	if (index < 0 || !what[0])
-		snprintf(from, sizeof from, "every source");
-	else
-		snprintf(from, sizeof from, "%s", what);
-	log_ring_post(&t->log, LOG_LEVEL_WARNING,
-		      "input: events from %s were lost (the input queue overflowed: latticed did not read in "
-		      "time); %d held note(s) ended so that none hangs (%llu time(s) so far)",
-		      from, ended, (unsigned long long)t->inputs_lost);
-	t->inputs_lost_logged = t->inputs_lost;
-	t->input_lost_logged_ms = now;
+	return feed_accepting(context);
 }
 
 static void on_event(void *context, enum midi_io_event kind, int index, const char *name)
 {
 	struct input_thread *t = context;
 	const char *what = name ? name : "";
-	if (kind == MIDI_IO_INPUT_LOST) {
-		if (index < MIDI_IO_MAX_SOURCES)
-			input_lost(t, index, what);
-	} else if (kind == MIDI_IO_SOURCE_CONNECTED || kind == MIDI_IO_SOURCE_GONE) {
-		if (index < 0 || index >= MIDI_IO_MAX_SOURCES)
-			return;
-		struct input_source *s = &t->sources[index];
-		midi_parser_reset(&s->parser);
-		s->seen = true;
-		snprintf(s->name, sizeof s->name, "%s", what);
-		if (kind == MIDI_IO_SOURCE_CONNECTED) {
-			s->connected = true;
-			log_ring_post(&t->log, LOG_LEVEL_INFO, "input: source %d connected: %s", index, what);
-		} else {
-			s->connected = false;
-			int ended = 0;
-			for (int k = 0; k < t->output_count; k++) {
-				ended += t->outputs[k].engine.note_count;
-				engine_end_source(&t->outputs[k].engine, (uint8_t)index);
-				ended -= t->outputs[k].engine.note_count;
-			}
-			log_ring_post(&t->log, LOG_LEVEL_NOTICE,
-				      "input: source %d gone: %s; its notes were ended (%d)", index, what, ended);
-		}
+	if (kind == MIDI_IO_NOTICE) {
+		log_ring_post(&t->log, LOG_LEVEL_NOTICE, "input: %s", what);
+	} else if (kind == MIDI_IO_INPUT_LOST || kind == MIDI_IO_SOURCE_CONNECTED ||
+		   kind == MIDI_IO_SOURCE_GONE) {
+		feed_source_event(t, kind, index, what);
 	} else if (index >= 0 && index < t->output_count) {
 		struct input_output *o = &t->outputs[index];
 		if (kind == MIDI_IO_OUTPUT_CONNECTED) {
-			/* the new receiver knows no running status: tell the output thread first */
-			uint8_t marker = 0;
-			if (msg_queue_push(t->messages, (uint8_t)(MSG_OUTPUT_RECONNECTED | o->index), &marker, 1))
-				t->wake_output = true;
 			log_ring_post(&t->log, LOG_LEVEL_INFO,
 				      "output %s: connected to %s; sending its set-up", o->name, what);
-			engine_start(&o->engine);
+			feed_output_connected(t, o);
 		} else {
+			o->was_gone = true;
 			log_ring_post(&t->log, LOG_LEVEL_NOTICE,
 				      "output %s: %s went away; nothing listens now", o->name, what);
 		}
@@ -194,7 +124,8 @@ static void on_event(void *context, enum midi_io_event kind, int index, const ch
 
 struct midi_io_callbacks input_thread_callbacks(struct input_thread *t)
 {
-	struct midi_io_callbacks cb = {.context = t, .input = on_input, .event = on_event};
+	struct midi_io_callbacks cb = {.context = t, .input = on_input, .event = on_event,
+				       .accepting = on_accepting};
 	return cb;
 }
 
@@ -227,6 +158,7 @@ bool input_thread_init(struct input_thread *t, const struct config *cfg,
 	(void)spsc_queue_init(&t->replies, t->reply_slots, REPLY_QUEUE_SLOTS,
 			      sizeof t->reply_slots[0]);
 	log_ring_init(&t->log);
+	input_backlog_init(&t->backlog);
 	atomic_init(&t->heartbeat, 0);
 	t->last_preset = 0;
 	t->last_root = 0;
@@ -340,10 +272,48 @@ static int find_preset(const struct engine_tunings *tunings, const struct reques
 	return -1;
 }
 
-static void panic_all(struct input_thread *t)
+/* Every output that hears the input; a cut-off one ends its notes when it
+ * drains.  Writes the names of those into `later`. */
+static void panic_all(struct input_thread *t, char *later, size_t size)
 {
-	for (int k = 0; k < t->output_count; k++)
-		engine_panic(&t->outputs[k].engine);
+	later[0] = '\0';
+	for (int k = 0; k < t->output_count; k++) {
+		struct input_output *o = &t->outputs[k];
+		if (!o->cut_off) {
+			engine_panic(&o->engine);
+			continue;
+		}
+		size_t used = strlen(later);
+		snprintf(later + used, size - used, "%s%s", used ? ", " : "", o->name);
+	}
+}
+
+/* The final panic: waits (at most SHUTDOWN_WAIT_MS) for room for it. */
+static void shutdown_panic(struct input_thread *t)
+{
+	int64_t give_up = monotonic_ms() + SHUTDOWN_WAIT_MS;
+	const struct timespec pause = {0, 1000000};
+	for (;;) {
+		bool all = true;
+		for (int k = 0; k < t->output_count; k++)
+			all &= msg_queue_room(t->messages, k) >= (size_t)guard_end_slots(&t->outputs[k].engine);
+		if (all || monotonic_ms() > give_up)
+			break;
+		wake_fd_signal(t->output_wake_fd);
+		nanosleep(&pause, NULL);
+	}
+	for (int k = 0; k < t->output_count; k++) {
+		struct input_output *o = &t->outputs[k];
+		struct engine *e = &o->engine;
+		if (msg_queue_room(t->messages, k) >= (size_t)guard_end_slots(e)) {
+			o->cut_off = false;
+			engine_panic(e);
+		} else {
+			log_ring_post(&t->log, LOG_LEVEL_ERROR,
+				      "output %s: its synth took nothing for %d ms; %d note(s) could not be ended",
+				      o->name, SHUTDOWN_WAIT_MS, e->note_count + passthrough_held(&e->passthrough));
+		}
+	}
 }
 
 static void swap_tunings(struct input_thread *t, const struct request *r)
@@ -437,6 +407,15 @@ static void fill_snapshot(struct input_thread *t, struct status_snapshot *s)
 		so->queue_drops = o->queue_drops;
 		so->sent = atomic_load_explicit(&t->output->sent[k], memory_order_relaxed);
 		so->send_drops = atomic_load_explicit(&t->output->send_drops[k], memory_order_relaxed);
+		so->refused = atomic_load_explicit(&t->output->refused[k], memory_order_relaxed);
+		so->waiting = msg_queue_fill(t->messages, k);
+		so->note_ons_shed = o->guard.note_ons_shed;
+		so->values_merged = o->guard.values_merged;
+		so->system_shed = o->guard.system_shed;
+		so->cut_off_dropped = o->guard.cut_off_dropped;
+		so->cut_offs = o->cut_offs;
+		so->cut_off = o->cut_off;
+		so->passthrough_notes = passthrough_held(&e->passthrough);
 		so->notes_held = e->note_count;
 		for (int i = 0; i < ENGINE_MAX_NOTES && so->note_count < SNAPSHOT_NOTES_MAX; i++) {
 			const struct engine_note *n = &e->notes[i];
@@ -479,19 +458,32 @@ static void fill_snapshot(struct input_thread *t, struct status_snapshot *s)
 	for (int i = 0; i < tun->count; i++)
 		snprintf(s->presets[i], sizeof s->presets[i], "%s", tun->presets[i].name);
 	s->heartbeat = atomic_load_explicit(&t->heartbeat, memory_order_relaxed);
+	s->input_pauses = t->pauses;
+	s->input_paused_ms = t->paused_ms +
+			     (t->paused_since_ms ? (uint64_t)(monotonic_ms() - t->paused_since_ms) : 0);
+	s->input_waiting = t->held || !input_backlog_empty(&t->backlog);
 	s->reloads = t->reloads;
 	s->retired_tunings = t->retired_count;
 	t->backend->describe(t->io, describe_line, s);
 }
 
-static void handle_request(struct input_thread *t, const struct request *r)
+/* False: an output has no room yet for what the request sends; ask again. */
+static bool handle_request(struct input_thread *t, const struct request *r)
 {
 	const struct engine *first = &t->outputs[0].engine;
 	switch (r->kind) {
-	case REQUEST_PANIC:
-		panic_all(t);
-		reply_done(t, r, true, "all notes off on every output");
+	case REQUEST_PANIC: {
+		if (!feed_room_everywhere(t, -1))
+			return false;
+		char later[MIDI_IO_MAX_OUTPUTS * (ENGINE_NAME_MAX + 2)];
+		panic_all(t, later, sizeof later);
+		if (later[0])
+			reply_done(t, r, true, "all notes off on every output (%s: once its synth reads again)",
+				   later);
+		else
+			reply_done(t, r, true, "all notes off on every output");
 		break;
+	}
 	case REQUEST_PRESET: {
 		int p = find_preset(first->tunings, r);
 		if (p < 0) {
@@ -499,6 +491,8 @@ static void handle_request(struct input_thread *t, const struct request *r)
 				   r->name, first->tunings->count);
 			break;
 		}
+		if (!feed_room_everywhere(t, COMMAND_SLOTS))
+			return false;
 		for (int k = 0; k < t->output_count; k++)
 			(void)engine_select_preset(&t->outputs[k].engine, p);
 		reply_done(t, r, true, "preset %s (for new notes)", current_preset_of(first)->name);
@@ -511,6 +505,8 @@ static void handle_request(struct input_thread *t, const struct request *r)
 				   r->number, tones, current_preset_of(first)->name, tones);
 			break;
 		}
+		if (!feed_room_everywhere(t, COMMAND_SLOTS))
+			return false;
 		for (int k = 0; k < t->output_count; k++)
 			(void)engine_select_root(&t->outputs[k].engine, r->number);
 		char label[SNAPSHOT_LABEL_MAX];
@@ -519,6 +515,8 @@ static void handle_request(struct input_thread *t, const struct request *r)
 		break;
 	}
 	case REQUEST_TUNINGS:
+		if (!feed_room_everywhere(t, COMMAND_SLOTS))
+			return false;
 		swap_tunings(t, r);
 		break;
 	case REQUEST_SNAPSHOT: {
@@ -530,9 +528,24 @@ static void handle_request(struct input_thread *t, const struct request *r)
 	}
 	case REQUEST_QUIT:
 		t->shutting_down = true;
-		panic_all(t);
+		shutdown_panic(t);
 		t->quit = true;
 		break;
+	}
+	return true;
+}
+
+/* The held request first, then the queue in order, until one must wait. */
+static void take_requests(struct input_thread *t)
+{
+	if (t->request_held && handle_request(t, &t->held_request))
+		t->request_held = false;
+	struct request r;
+	while (!t->quit && !t->request_held && spsc_queue_pop(&t->requests, &r)) {
+		if (!handle_request(t, &r)) {
+			t->held_request = r;
+			t->request_held = true;
+		}
 	}
 }
 
@@ -569,28 +582,29 @@ void *input_thread_run(void *arg)
 {
 	struct input_thread *t = arg;
 	struct pollfd fds[POLL_MAX];
+	int feed_timeout = -1;
 	while (!t->quit) {
 		fds[0].fd = t->wake_fd;
 		fds[0].events = POLLIN;
 		fds[0].revents = 0;
 		int tick = -1;
 		int n = t->backend->input_fds(t->io, fds + 1, POLL_MAX - 1, &tick);
-		if (n < 0)
-			n = 0;
+		if (n < 0 || !feed_accepting(t))
+			n = 0; /* the input waits: its descriptors would only say it is there */
 		int timeout = t->heartbeat_ms;
 		if (tick > 0 && tick < timeout)
 			timeout = tick;
+		if (feed_timeout >= 0 && feed_timeout < timeout)
+			timeout = feed_timeout;
 		int ready = poll(fds, (nfds_t)(n + 1), timeout);
 		atomic_fetch_add_explicit(&t->heartbeat, 1, memory_order_relaxed);
 		if (ready < 0 && errno != EINTR)
 			log_ring_post(&t->log, LOG_LEVEL_ERROR, "input: poll failed: %s", strerror(errno));
 		if (fds[0].revents & POLLIN)
 			wake_fd_clear(t->wake_fd);
+		feed_resume(t);
 		t->backend->service_input(t->io);
-
-		struct request r;
-		while (!t->quit && spsc_queue_pop(&t->requests, &r))
-			handle_request(t, &r);
+		take_requests(t);
 
 		report_notices(t);
 		check_tuning_state(t);
@@ -600,6 +614,7 @@ void *input_thread_run(void *arg)
 			release_retired(t);
 		}
 		flush_outbox(t);
+		feed_timeout = feed_arrange_wakeups(t);
 		if (spsc_queue_count(&t->log.ring))
 			t->wake_main = true;
 		wake_others(t);

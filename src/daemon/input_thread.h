@@ -12,16 +12,44 @@
  * therefore always land between two messages.
  *
  * It talks to the others only through queues: encoded messages to the
- * output thread (msg_queue, then a write to the output thread's eventfd),
- * replies and log lines to the main thread (spsc_queue and log_ring, then
- * a write to the main thread's eventfd).  Two kinds of values are read
- * across threads without a queue, both atomics: its heartbeat counter
- * (read by the main thread for the watchdog) and the output thread's
- * per-output counters (read here for status snapshots).
+ * output thread (msg_queue, a ring per output, then a write to the output
+ * thread's eventfd), replies and log lines to the main thread (spsc_queue
+ * and log_ring, then a write to the main thread's eventfd).  Values read
+ * across threads without a queue are atomics: its heartbeat counter (read
+ * by the main thread for the watchdog), the output thread's per-output
+ * counters (read here for status snapshots) and room_wanted (set here,
+ * cleared there).
  *
- * Nothing in the loop allocates, locks, prints or blocks, except at the
- * final panic of a shutdown, which waits (at most about 2 s) for room in
- * the output queue so that every note-off gets out.
+ * Load (input_feed.c): an engine is only given a message when its output's
+ * ring has room for everything the message can make it send, so no ring
+ * ever refuses an engine's message and what the engine believes the synth
+ * was told is what the synth is told.  Per output ring (MSG_QUEUE_SLOTS):
+ *   - below INPUT_HIGH_WATER every message goes to the engine;
+ *   - at or above it, new note-ons and system messages are left out and
+ *     continuous data is merged into the output's guard_store, given to the
+ *     engine once the ring is below the mark again (output_guard.h);
+ *   - note-offs, pedal releases and the rest of the MUST class always go,
+ *     into the slots above the mark (the reserve: after the largest single
+ *     message below the mark it still holds more than one panic can send,
+ *     with 512 notes, 512 pass-through notes and their pedals held);
+ *   - when even the reserve lacks room for one, the input waits
+ *     (backpressure): the message is held, the rest of what the backend
+ *     delivered goes into the input_backlog, the backend is told to stop
+ *     reading (the bytes wait in the FIFO, device or sequencer queue), and
+ *     requests that would send something wait too;
+ *   - an output whose synth takes nothing for INPUT_CUT_OFF_MS while the
+ *     input waits for it is cut off: it gets no more input (controller
+ *     values are still kept for it), the others go on, and once its ring
+ *     has drained every note it holds is ended (engine_panic) before it
+ *     hears the input again.
+ * A synth that is gone (OUTPUT_GONE) keeps its engine's notes; when one
+ * connects there again, every note is ended for it first (engine_panic,
+ * then pedals up and All Notes Off on all 16 channels), then it gets its
+ * set-up, so a synth that was only unsubscribed has nothing left hanging.
+ *
+ * Nothing in the loop allocates, locks or prints.  The waits are bounded:
+ * a held message waits at most INPUT_CUT_OFF_MS (polling every few ms), the
+ * final panic of a shutdown at most SHUTDOWN_WAIT_MS for room.
  */
 #ifndef LATTICED_INPUT_THREAD_H
 #define LATTICED_INPUT_THREAD_H
@@ -31,16 +59,20 @@
 #include <stdint.h>
 
 #include "config.h"
+#include "input_backlog.h"
 #include "latticed/engine.h"
 #include "latticed/midi_parser.h"
 #include "log_ring.h"
 #include "midi_io.h"
 #include "msg_queue.h"
+#include "output_guard.h"
 #include "request.h"
 #include "spsc_queue.h"
 
 #define INPUT_RETIRED_MAX 4
 #define INPUT_OUTBOX_MAX 32
+#define INPUT_HIGH_WATER (MSG_QUEUE_SLOTS / 2)   /* new notes only below this */
+#define INPUT_CUT_OFF_MS 1000
 
 struct output_thread;
 
@@ -49,9 +81,18 @@ struct input_output {                /* one output, as the input thread sees it 
 	uint8_t index;
 	char name[ENGINE_NAME_MAX];
 	struct engine engine;
-	uint64_t queued, queue_drops;
+	uint64_t queued, queue_drops;    /* queue_drops: refused by a full ring (never expected) */
 	uint64_t drops_logged;           /* queue_drops when last logged */
 	int64_t drop_logged_ms;
+	struct output_guard guard;       /* what is left out or held back under load */
+	uint64_t shed_logged;            /* guard counters' sum when last logged */
+	int64_t shed_logged_ms;
+	size_t want;                     /* wake when the ring's fill is below this */
+	int64_t waiting_since_ms;        /* a message has waited for room here since */
+	bool cut_off;                    /* fell behind: no input until its ring drains */
+	uint64_t cut_offs;
+	bool was_gone;                   /* OUTPUT_GONE since its last connection */
+	bool reconnect_pending;          /* OUTPUT_CONNECTED still to handle */
 };
 
 struct input_source {
@@ -106,6 +147,18 @@ struct input_thread {
 	uint64_t inputs_lost, inputs_lost_logged; /* INPUT_LOST reports */
 	int64_t input_lost_logged_ms;
 	uint8_t encode_buffer[MSG_QUEUE_MESSAGE_MAX];
+	/* backpressure (input_feed.c) */
+	struct input_backlog backlog;
+	bool held;                       /* held_msg waits for room */
+	uint8_t held_source;
+	struct midi_msg held_msg;
+	bool request_held;               /* held_request waits for room */
+	struct request held_request;
+	bool again;                      /* room came while arranging a wake-up: loop at once */
+	bool forcing;                    /* no waiting: outputs without room are cut off */
+	uint64_t pauses, paused_ms;      /* times the input waited, and for how long */
+	int64_t paused_since_ms, pause_logged_ms;
+	bool overflow_logged;
 };
 
 /*

@@ -1,14 +1,20 @@
 /*
- * msg_queue: finished MIDI messages (encoded bytes plus the output they
- * are for) from the input thread to the output thread.
+ * msg_queue: finished MIDI messages from the input thread to the output
+ * thread, one ring per output.
  *
- * Built on one spsc_queue of small slots: a message of n bytes takes
- * ceil(n / MSG_QUEUE_SLOT_BYTES) consecutive slots, the first marked
- * FIRST and the last LAST.  A push reserves every slot it needs before it
- * publishes any of them, so the consumer sees whole messages or nothing,
- * and a full queue drops a message whole (the producer counts it).
- * Ordering: messages come out in the order they went in, across all
- * outputs.  Same ownership rules as spsc_queue: one producer, one consumer.
+ * A ring per output, so a synth that stops reading holds up only its own
+ * messages: the others drain past it, each in its own order.  Each ring
+ * is an spsc_queue of small slots: a message of n bytes takes
+ * ceil(n / MSG_QUEUE_SLOT_BYTES) consecutive slots, the first marked FIRST
+ * and the last LAST.  A push reserves every slot it needs before it
+ * publishes any of them, so the consumer sees whole messages or nothing; a
+ * push that does not fit changes nothing and says so (the producer checks
+ * room first: see input_thread.h for who may use how much of a ring).
+ * The consumer reads the oldest message without taking it
+ * (msg_queue_peek) and takes it only once the backend has accepted it
+ * (msg_queue_release), so a message the backend refused is sent again,
+ * never lost.  Same ownership rules as spsc_queue: one producer, one
+ * consumer.
  */
 #ifndef LATTICED_MSG_QUEUE_H
 #define LATTICED_MSG_QUEUE_H
@@ -17,41 +23,57 @@
 #include <stddef.h>
 #include <stdint.h>
 
+#include "midi_io.h"
 #include "spsc_queue.h"
 
 #define MSG_QUEUE_SLOT_BYTES 28
-#define MSG_QUEUE_SLOTS 8192         /* 256 KB: ~2700 three-byte messages */
+#define MSG_QUEUE_SLOTS 4096         /* per output: 128 KB, ~4000 short messages */
 #define MSG_QUEUE_MESSAGE_MAX 8192   /* longest message (a SysEx) carried */
 
 enum { MSG_SLOT_FIRST = 1, MSG_SLOT_LAST = 2 };
 
-/* An output index with this bit set is a marker, not a message: the output
- * (index without the bit) was reconnected, so what the receiver holds is
- * unknown (e.g. its running status). */
-#define MSG_OUTPUT_RECONNECTED 0x80
+enum msg_kind {
+	MSG_MIDI,                        /* bytes to send */
+	MSG_RECONNECTED,                 /* the receiver is new: it knows no
+	                                  * running status */
+};
 
 struct msg_slot {
-	uint8_t output;
+	uint8_t kind;                    /* enum msg_kind */
 	uint8_t flags;
 	uint16_t length;                 /* total message length (FIRST slot) */
 	uint8_t bytes[MSG_QUEUE_SLOT_BYTES];
 };
 
-struct msg_queue {
+struct msg_ring {
 	struct spsc_queue ring;
 	struct msg_slot slots[MSG_QUEUE_SLOTS];
 };
 
+struct msg_queue {
+	struct msg_ring outputs[MIDI_IO_MAX_OUTPUTS];
+};
+
 void msg_queue_init(struct msg_queue *q);
 
-/* Producer: false if the message does not fit now (or is too long). */
-bool msg_queue_push(struct msg_queue *q, uint8_t output, const uint8_t *bytes, size_t length);
+/* Slots a message of this length takes. */
+size_t msg_queue_slots_for(size_t length);
 
-/* Producer: room for a message of this length right now? */
-bool msg_queue_has_room(struct msg_queue *q, size_t length);
+/* Producer: false (nothing queued) if it does not fit now or is too long. */
+bool msg_queue_push(struct msg_queue *q, int output, const uint8_t *bytes, size_t length);
+/* Producer: a marker of `kind` (one slot). */
+bool msg_queue_push_marker(struct msg_queue *q, int output, enum msg_kind kind);
 
-/* Consumer: the oldest message into buf (capacity >= MSG_QUEUE_MESSAGE_MAX);
- * returns its length and sets *output, or 0 if the queue is empty. */
-size_t msg_queue_pop(struct msg_queue *q, uint8_t *output, uint8_t *buf, size_t capacity);
+/* Producer: slots free now (exact; only the consumer can make more). */
+size_t msg_queue_room(struct msg_queue *q, int output);
+/* Either side: slots in use (an estimate while the other side works). */
+size_t msg_queue_fill(struct msg_queue *q, int output);
+
+/* Consumer: the oldest message of `output` into buf (capacity >=
+ * MSG_QUEUE_MESSAGE_MAX), left in the ring; returns its length and sets
+ * *kind, or 0 if the ring is empty.  Then msg_queue_release takes it. */
+size_t msg_queue_peek(struct msg_queue *q, int output, enum msg_kind *kind, uint8_t *buf,
+		      size_t capacity);
+void msg_queue_release(struct msg_queue *q, int output);
 
 #endif

@@ -3,7 +3,9 @@
  * wake-up: the input thread pushes and then writes the eventfd; this
  * thread clears the eventfd and then drains, so a push it did not see
  * has written the eventfd after the clear, and the next poll returns at
- * once.
+ * once.  room_wanted works the same way round: the input thread stores
+ * its level and then looks at the fill again; this thread releases slots
+ * and then looks at the level, so one of the two sees the other.
  */
 #include "output_thread.h"
 
@@ -14,9 +16,10 @@
 #include <unistd.h>
 
 #define STOP_RETRY_MS 2000
-#define IDLE_FLUSH_MS 10
-#define IDLE_FLUSHES 5
-#define DROP_LOG_INTERVAL_MS 1000
+#define RETRY_FIRST_MS 1
+#define RETRY_MAX_MS 4
+#define BATCH_MESSAGES 256           /* per output per round, so none waits long */
+#define BLOCKED_LOG_INTERVAL_MS 1000
 
 int64_t monotonic_ms(void)
 {
@@ -50,25 +53,33 @@ void output_thread_init(struct output_thread *t)
 	for (int i = 0; i < MIDI_IO_MAX_OUTPUTS; i++) {
 		atomic_init(&t->sent[i], 0);
 		atomic_init(&t->send_drops[i], 0);
+		atomic_init(&t->refused[i], 0);
+		atomic_init(&t->room_wanted[i], 0);
 		t->wire_status[i] = 0;
-		t->drops_logged[i] = 0;
-		t->drop_logged_ms[i] = 0;
+		t->blocked[i] = false;
+		t->blocked_logged_ms[i] = 0;
 	}
+	t->held_back = false;
+	t->input_wake_fd = -1;
 	log_ring_init(&t->log);
 }
 
-static void note_drop(struct output_thread *t, int output)
+void output_thread_want_room(struct output_thread *t, int output, size_t fill)
 {
-	uint64_t drops = atomic_fetch_add_explicit(&t->send_drops[output], 1,
-						   memory_order_relaxed) + 1;
+	atomic_store(&t->room_wanted[output], fill);
+}
+
+static void note_refused(struct output_thread *t, int output)
+{
+	uint64_t refused = atomic_fetch_add_explicit(&t->refused[output], 1, memory_order_relaxed) + 1;
 	int64_t now = monotonic_ms();
-	if (now - t->drop_logged_ms[output] < DROP_LOG_INTERVAL_MS && t->drops_logged[output])
+	if (t->blocked_logged_ms[output] && now - t->blocked_logged_ms[output] < BLOCKED_LOG_INTERVAL_MS)
 		return;
 	log_ring_post(&t->log, LOG_LEVEL_WARNING,
-		      "output %s: the backend refused %llu message(s) so far (the receiver is not keeping up)",
-		      t->names[output], (unsigned long long)drops);
-	t->drops_logged[output] = drops;
-	t->drop_logged_ms[output] = now;
+		      "output %s: the synth is not taking messages (refused %llu time(s) so far, %zu slot(s) "
+		      "waiting); latticed waits for it and drops nothing",
+		      t->names[output], (unsigned long long)refused, msg_queue_fill(t->messages, output));
+	t->blocked_logged_ms[output] = now;
 	wake_fd_signal(t->main_wake_fd);
 }
 
@@ -77,8 +88,7 @@ static bool is_channel_status(uint8_t b)
 	return b >= 0x80 && b < 0xF0;
 }
 
-static bool send_one(struct output_thread *t, int output, const uint8_t *bytes, size_t length,
-		     bool retry)
+static bool send_one(struct output_thread *t, int output, const uint8_t *bytes, size_t length)
 {
 	const uint8_t *start = bytes;
 	size_t n = length;
@@ -88,17 +98,7 @@ static bool send_one(struct output_thread *t, int output, const uint8_t *bytes, 
 		start++;
 		n--;
 	}
-	bool ok = t->backend->send(t->io, output, start, n);
-	if (!ok && retry) {
-		int64_t give_up = monotonic_ms() + STOP_RETRY_MS;
-		const struct timespec pause = {0, 1000000};
-		while (!ok && monotonic_ms() < give_up) {
-			t->backend->flush(t->io);
-			nanosleep(&pause, NULL);
-			ok = t->backend->send(t->io, output, start, n);
-		}
-	}
-	if (!ok) {
+	if (!t->backend->send(t->io, output, start, n)) {
 		t->wire_status[output] = 0;
 		return false;
 	}
@@ -109,55 +109,116 @@ static bool send_one(struct output_thread *t, int output, const uint8_t *bytes, 
 	return true;
 }
 
-/* Sends everything queued; returns how many messages went. */
-static int drain(struct output_thread *t, bool retry)
+static void wake_input_if_wanted(struct output_thread *t, int output)
+{
+	size_t want = atomic_load(&t->room_wanted[output]);
+	if (want && msg_queue_fill(t->messages, output) < want &&
+	    atomic_exchange(&t->room_wanted[output], 0) && t->input_wake_fd >= 0)
+		wake_fd_signal(t->input_wake_fd);
+}
+
+/* Sends up to a batch of one output's messages; returns how many went. */
+static int drain_output(struct output_thread *t, int output, bool *more)
 {
 	int count = 0;
-	uint8_t output;
+	enum msg_kind kind;
 	size_t length;
-	while ((length = msg_queue_pop(t->messages, &output, t->buffer, sizeof t->buffer)) > 0) {
-		if (output & MSG_OUTPUT_RECONNECTED) {
-			if ((output & ~MSG_OUTPUT_RECONNECTED) < t->output_count)
-				t->wire_status[output & ~MSG_OUTPUT_RECONNECTED] = 0;
-			continue;
-		}
-		if (output >= t->output_count)
-			continue;
-		if (send_one(t, output, t->buffer, length, retry))
+	while (count < BATCH_MESSAGES &&
+	       (length = msg_queue_peek(t->messages, output, &kind, t->buffer, sizeof t->buffer)) > 0) {
+		if (kind == MSG_RECONNECTED) {
+			t->wire_status[output] = 0;
+		} else if (!send_one(t, output, t->buffer, length)) {
+			if (!t->blocked[output])
+				note_refused(t, output);
+			t->blocked[output] = true;
+			break;
+		} else {
 			atomic_fetch_add_explicit(&t->sent[output], 1, memory_order_relaxed);
-		else
-			note_drop(t, output);
+		}
+		t->blocked[output] = false;
+		msg_queue_release(t->messages, output);
 		count++;
 	}
+	if (count == BATCH_MESSAGES)
+		*more = true;
 	if (count)
-		t->backend->flush(t->io);
+		wake_input_if_wanted(t, output);
 	return count;
+}
+
+/* One round over every output; returns messages sent, sets *blocked when
+ * a message was refused or the backend still holds some back. */
+static int drain(struct output_thread *t, bool *blocked, bool *more)
+{
+	int count = 0;
+	*blocked = *more = false;
+	for (int k = 0; k < t->output_count; k++) {
+		count += drain_output(t, k, more);
+		*blocked |= t->blocked[k];
+	}
+	if (count || *blocked || t->held_back)
+		t->held_back = !t->backend->flush(t->io);
+	*blocked |= t->held_back;
+	return count;
+}
+
+static size_t left_over(struct output_thread *t)
+{
+	size_t left = 0;
+	for (int k = 0; k < t->output_count; k++)
+		left += msg_queue_fill(t->messages, k);
+	return left;
+}
+
+/* Stopping: what a synth that never read could not take. */
+static void give_up(struct output_thread *t)
+{
+	enum msg_kind kind;
+	for (int k = 0; k < t->output_count; k++) {
+		uint64_t dropped = 0;
+		while (msg_queue_peek(t->messages, k, &kind, t->buffer, sizeof t->buffer) > 0) {
+			dropped += kind == MSG_MIDI;
+			msg_queue_release(t->messages, k);
+		}
+		if (!dropped && !t->held_back)
+			continue;
+		atomic_fetch_add_explicit(&t->send_drops[k], dropped, memory_order_relaxed);
+		log_ring_post(&t->log, LOG_LEVEL_ERROR,
+			      "output %s: its synth took nothing for %d ms at shutdown; %llu queued message(s) "
+			      "and what its port still held could not be sent (notes may hang there)",
+			      t->names[k], STOP_RETRY_MS, (unsigned long long)dropped);
+	}
+	wake_fd_signal(t->main_wake_fd);
 }
 
 void *output_thread_run(void *arg)
 {
 	struct output_thread *t = arg;
 	struct pollfd pfd = {.fd = t->wake_fd, .events = POLLIN};
-	int idle_flushes = 0;
+	int retry_ms = RETRY_FIRST_MS;
+	int64_t stop_deadline = 0;
 	for (;;) {
 		wake_fd_clear(t->wake_fd);
 		bool stopping = atomic_load_explicit(&t->stop, memory_order_acquire);
-		if (drain(t, stopping) > 0)
-			idle_flushes = IDLE_FLUSHES;
+		bool blocked, more;
+		if (drain(t, &blocked, &more) > 0)
+			retry_ms = RETRY_FIRST_MS;
+		else if (blocked && retry_ms < RETRY_MAX_MS)
+			retry_ms *= 2;
 		if (stopping) {
 			/* the input thread has stopped: nothing more can arrive */
-			while (drain(t, true) > 0)
-				;
-			t->backend->flush(t->io);
-			break;
+			if (!stop_deadline)
+				stop_deadline = monotonic_ms() + STOP_RETRY_MS;
+			if (left_over(t) == 0 && !t->held_back)
+				break;
+			if (monotonic_ms() >= stop_deadline) {
+				give_up(t);
+				break;
+			}
 		}
-		int timeout = idle_flushes > 0 ? IDLE_FLUSH_MS : -1;
-		int r = poll(&pfd, 1, timeout);
-		if (r == 0 && idle_flushes > 0) {
-			/* let a backend finish a write it had to cut short */
-			t->backend->flush(t->io);
-			idle_flushes--;
-		}
+		/* idle (nothing queued, nothing held back): sleep until woken */
+		int timeout = more ? 0 : blocked ? retry_ms : -1;
+		(void)poll(&pfd, 1, timeout);
 	}
 	return NULL;
 }

@@ -3,18 +3,30 @@
  *
  * It owns the backend's output side: it alone calls send() and flush().
  * It sleeps in poll() on its eventfd, which the input thread writes after
- * putting messages in the queue, so a message waits for no timer; it then
- * drains the queue in order, sends each message, and flushes once per
- * batch.  A message the backend refuses is dropped and counted per output
- * (an atomic counter the input thread reads for status).  When told to
- * stop, it drains everything left, retrying refusals for up to about two
- * seconds so the last note-offs get out, then returns.
+ * putting messages in a queue, so a message waits for no timer; it then
+ * drains every output's ring in order, sends each message, and flushes
+ * once per batch.
+ *
+ * Waiting on a synth is this thread's job: a message the backend refuses
+ * (the synth is not reading, its buffers are full) stays at the head of
+ * its output's ring and is sent again, first after 1 ms, then every few
+ * ms, while the other outputs go on; nothing is dropped for being refused
+ * (`refused` counts the refusals).  The input thread, which decides what
+ * goes into a ring, may ask to be woken when a ring has drained below a
+ * level (room_wanted); this thread writes the input thread's eventfd then.
+ * A flush that leaves bytes in the backend (its receiver is full) is tried
+ * again the same way, so the tail of a burst never waits for the next
+ * message.  When told to stop, it drains everything left, still retrying,
+ * for up to two seconds in all, so the last note-offs get out; what a synth
+ * that never reads leaves after that is counted as dropped (send_drops) and
+ * logged.  Idle (nothing queued or held back), it sleeps with no timeout:
+ * no core spins.
  *
  * Running status (running_status = yes) is applied here, only for the raw
  * backend, whose bytes go to the wire as they are: a channel message whose
  * status byte equals the last one written goes without it.  After a refused
- * message the next one always carries its status byte, so a drop can never
- * leave the receiver reading data bytes under the wrong status.
+ * message the next attempt always carries its status byte, so a refusal can
+ * never leave the receiver reading data bytes under the wrong status.
  */
 #ifndef LATTICED_OUTPUT_THREAD_H
 #define LATTICED_OUTPUT_THREAD_H
@@ -35,6 +47,7 @@ struct output_thread {
 	struct msg_queue *messages;      /* consumer side */
 	int wake_fd;                     /* ours */
 	int main_wake_fd;                /* the main thread's, for log lines */
+	int input_wake_fd;               /* the input thread's, for room_wanted */
 	int output_count;
 	char names[MIDI_IO_MAX_OUTPUTS][MIDI_IO_NAME_MAX];
 	bool running_status[MIDI_IO_MAX_OUTPUTS];
@@ -42,15 +55,20 @@ struct output_thread {
 
 	/* written by the main thread, read here */
 	atomic_bool stop;
+	/* written by the input thread, cleared here: wake it when the ring's
+	 * fill is below this (0: not wanted) */
+	atomic_size_t room_wanted[MIDI_IO_MAX_OUTPUTS];
 	/* written here, read by the input thread (status) */
 	atomic_uint_fast64_t sent[MIDI_IO_MAX_OUTPUTS];
 	atomic_uint_fast64_t send_drops[MIDI_IO_MAX_OUTPUTS];
+	atomic_uint_fast64_t refused[MIDI_IO_MAX_OUTPUTS];
 
 	/* the thread's own */
 	pthread_t thread;
 	uint8_t wire_status[MIDI_IO_MAX_OUTPUTS];
-	uint64_t drops_logged[MIDI_IO_MAX_OUTPUTS];
-	int64_t drop_logged_ms[MIDI_IO_MAX_OUTPUTS];
+	bool blocked[MIDI_IO_MAX_OUTPUTS];   /* its head message was refused */
+	bool held_back;                  /* the last flush left bytes in the backend */
+	int64_t blocked_logged_ms[MIDI_IO_MAX_OUTPUTS];
 	uint8_t buffer[MSG_QUEUE_MESSAGE_MAX];
 };
 
@@ -61,6 +79,9 @@ void *output_thread_run(void *arg);
 
 /* Main thread: drain what is queued, then return from output_thread_run. */
 void output_thread_stop(struct output_thread *t);
+
+/* Input thread: wake me when `output`'s ring holds fewer than `fill` slots. */
+void output_thread_want_room(struct output_thread *t, int output, size_t fill);
 
 /* Milliseconds on CLOCK_MONOTONIC (for rate-limited log lines). */
 int64_t monotonic_ms(void);

@@ -9,12 +9,12 @@
  * pointer to the parsed input, which lives until the file is written.
  *
  * Hanging notes are released through the engine as the player would
- * release them: a note-off for every key still down, in the track its
- * note-on came from, then pedal-up for every pedal still down, in the
- * track that last moved it; engine_panic only if something still sounds
- * after that (it should not).  A track whose last event lies more than
- * one delta time (VLQ_MAX_VALUE ticks, SMF 1.0) before the end gets its
- * releases as late as a delta reaches instead, reported.
+ * release them: a note-off for every key still down (retuned or passed
+ * through), in the track its note-on came from, then pedal-up for every
+ * pedal still down, in the track that last moved it; engine_panic only if
+ * something still sounds after that (it should not).  A track whose last
+ * event lies more than one delta time (VLQ_MAX_VALUE ticks, SMF 1.0) before
+ * the end gets its releases as late as a delta reaches instead, reported.
  */
 #include "render_cmd.h"
 
@@ -250,19 +250,28 @@ static void release_in(struct render *r, size_t track, uint32_t end)
 	r->tick = t->release_tick;
 }
 
+/* Something still sounds: a retuned note, or a pass-through one. */
+static bool anything_sounds(const struct engine *e)
+{
+	return e->note_count > 0 || passthrough_held(&e->passthrough) > 0 ||
+	       passthrough_ringing(&e->passthrough) > 0;
+}
+
 /* Releases what the input left sounding, at `tick`. */
 static void release_hanging(struct render *r, size_t setup_track, uint32_t tick)
 {
 	struct engine *e = r->engine;
-	if (e->note_count == 0)
+	const struct passthrough *pass = &e->passthrough;
+	if (!anything_sounds(e))
 		return;
 	r->report->hanging_tick = tick > r->report->hanging_tick ? tick : r->report->hanging_tick;
 	/* released notes a pedal holds; counted before the keys join them */
 	for (int i = 0; i < ENGINE_MAX_NOTES; i++)
 		r->report->hanging_pedal_notes += e->notes[i].phase == NOTE_RINGING;
+	r->report->hanging_pedal_notes += (size_t)passthrough_ringing(pass);
 	for (int ch = 0; ch < 16; ch++) {
 		for (int key = 0; key < 128; key++) {
-			if (e->key_down[0][ch][key] == NO_NOTE)
+			if (e->key_down[0][ch][key] == NO_NOTE && !passthrough_holds(pass, 0, ch, key))
 				continue;
 			release_in(r, r->key_track[ch][key], tick);
 			struct midi_msg off = midi_msg_note_off((uint8_t)ch, (uint8_t)key,
@@ -271,18 +280,19 @@ static void release_hanging(struct render *r, size_t setup_track, uint32_t tick)
 			r->report->hanging_keys++;
 		}
 	}
-	for (int ch = 0; ch < 16 && e->note_count > 0; ch++) {
+	for (int ch = 0; ch < 16 && anything_sounds(e); ch++) {
 		release_in(r, r->pedal_track[ch], tick);
-		if (e->in[ch].sustain) {
+		bool passed = passthrough_ringing(pass) > 0;
+		if (e->in[ch].sustain || (passed && passthrough_pedal_down(pass, ch, CC_SUSTAIN))) {
 			struct midi_msg up = midi_msg_control((uint8_t)ch, CC_SUSTAIN, 0);
 			engine_handle(e, 0, &up);
 		}
-		if (e->in[ch].sostenuto) {
+		if (e->in[ch].sostenuto || (passed && passthrough_pedal_down(pass, ch, CC_SOSTENUTO))) {
 			struct midi_msg up = midi_msg_control((uint8_t)ch, CC_SOSTENUTO, 0);
 			engine_handle(e, 0, &up);
 		}
 	}
-	if (e->note_count > 0) {
+	if (anything_sounds(e)) {
 		release_in(r, setup_track, tick);
 		engine_panic(e);
 	}

@@ -41,9 +41,15 @@ struct snapshot_output {
 	char root_label[SNAPSHOT_LABEL_MAX];
 	struct engine_stats stats;
 	uint64_t queued;                      /* messages put in the output queue */
-	uint64_t queue_drops;                 /* output queue full */
+	uint64_t queue_drops;                 /* queue full after all (never expected) */
 	uint64_t sent;                        /* accepted by the backend */
-	uint64_t send_drops;                  /* refused by the backend */
+	uint64_t send_drops;                  /* given up at shutdown: the synth never read */
+	uint64_t refused;                     /* times the backend refused (each retried) */
+	size_t waiting;                       /* queue slots in use */
+	uint64_t note_ons_shed, values_merged, system_shed; /* under load (output_guard.h) */
+	uint64_t cut_offs, cut_off_dropped;
+	bool cut_off;                         /* now */
+	int passthrough_notes;                /* held on channels not retuned */
 	int notes_held;
 	int note_count;                       /* listed below */
 	struct snapshot_note notes[SNAPSHOT_NOTES_MAX];
@@ -64,6 +70,8 @@ struct status_snapshot {
 	int preset_count;
 	char presets[ENGINE_MAX_PRESETS][ENGINE_NAME_MAX];
 	uint64_t heartbeat;                   /* input thread wake-ups */
+	uint64_t input_pauses, input_paused_ms; /* backpressure: the input waited */
+	bool input_waiting;                   /* now */
 	uint32_t reloads;                     /* tunings swapped in */
 	int retired_tunings;                  /* old sets kept for sounding notes */
 	int describe_length;

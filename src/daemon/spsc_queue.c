@@ -77,6 +77,23 @@ void spsc_queue_release(struct spsc_queue *q)
 	atomic_store_explicit(&q->head, head + 1, memory_order_release);
 }
 
+const void *spsc_queue_peek_ahead(struct spsc_queue *q, size_t ahead)
+{
+	size_t head = atomic_load_explicit(&q->head, memory_order_relaxed);
+	if (q->tail_seen - head <= ahead) {
+		q->tail_seen = atomic_load_explicit(&q->tail, memory_order_acquire);
+		if (q->tail_seen - head <= ahead)
+			return NULL;
+	}
+	return slot_at(q, head + ahead);
+}
+
+void spsc_queue_release_many(struct spsc_queue *q, size_t count)
+{
+	size_t head = atomic_load_explicit(&q->head, memory_order_relaxed);
+	atomic_store_explicit(&q->head, head + count, memory_order_release);
+}
+
 bool spsc_queue_pop(struct spsc_queue *q, void *item)
 {
 	const void *slot = spsc_queue_peek(q);

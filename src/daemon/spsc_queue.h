@@ -66,6 +66,13 @@ bool spsc_queue_pop(struct spsc_queue *q, void *item);
 const void *spsc_queue_peek(struct spsc_queue *q);
 void spsc_queue_release(struct spsc_queue *q);
 
+/* Consumer, for items spanning several slots: the slot `ahead` places past
+ * the head (NULL if fewer items are there), and a release of `count` at
+ * once; a slot stays the consumer's until released, so it can be read
+ * again (an item the next stage refused is retried, not lost). */
+const void *spsc_queue_peek_ahead(struct spsc_queue *q, size_t ahead);
+void spsc_queue_release_many(struct spsc_queue *q, size_t count);
+
 /* Either side: an estimate of the fill level (exact when the other is idle). */
 size_t spsc_queue_count(struct spsc_queue *q);
 

@@ -464,6 +464,10 @@ static void alsa_service_input(struct midi_io *io)
 	/* Until the kernel has nothing more: events already in alsa-lib's
 	 * buffer would not wake poll() again. */
 	for (;;) {
+		/* backpressure: the rest waits in the sequencer's queue (which
+		 * may then overflow: INPUT_LOST ends the notes, none hangs) */
+		if (io->cb.accepting && !io->cb.accepting(io->cb.context))
+			break;
 		snd_seq_event_t *ev = NULL;
 		int r = snd_seq_event_input(io->seq, &ev);
 		if (r == -EAGAIN)
@@ -518,7 +522,7 @@ static bool alsa_send(struct midi_io *io, int output, const uint8_t *bytes, size
 	return true;
 }
 
-static void alsa_flush(struct midi_io *io)
+static bool alsa_flush(struct midi_io *io)
 {
 	int r = snd_seq_drain_output(io->seq);
 	/* -EAGAIN: the kernel took part of it; the rest goes with the next
@@ -529,6 +533,7 @@ static void alsa_flush(struct midi_io *io)
 		if (io->output_count > 0)
 			atomic_fetch_add_explicit(&io->out[0].drops, 1, memory_order_relaxed);
 	}
+	return r == 0 || (r < 0 && r != -EAGAIN);
 }
 
 /* ---- open / close ----------------------------------------------------------- */

@@ -20,11 +20,17 @@
  *     handled inside service_input().  Callbacks are only ever called from
  *     service_input(): connections made by open() are reported by the
  *     first call.
+ *     Backpressure: before each read of input, service_input() asks
+ *     accepting() (when set); false means the daemon cannot take more now,
+ *     and the backend reads nothing more in this call, leaving the input
+ *     where the system keeps it (FIFO, device, sequencer queue) until a
+ *     later call.  What one read has delivered is always taken.
  *   - The output side runs on the output thread only: send() queues one
  *     complete message (status byte first: running status is not taken)
  *     for one output without blocking and returns false
- *     if it cannot (the caller counts a drop); flush() pushes queued
- *     messages out after a batch.
+ *     if it cannot (the caller tries it again later); flush() pushes queued
+ *     messages out after a batch and returns false while some are still
+ *     held back (the receiver is not reading): call it again later.
  *   - describe() (input thread) and list() (any thread, no open needed)
  *     report ports and connections as text lines for `latticed status`
  *     and `latticed ports`.
@@ -52,6 +58,8 @@ enum midi_io_event {
 	MIDI_IO_INPUT_LOST,         /* index = source, or -1 for every source: an
 	                             * input queue overflowed and events were lost;
 	                             * any of them may have been a note-off */
+	MIDI_IO_NOTICE,             /* index = source or -1; name = one sentence
+	                             * for the log (e.g. a FIFO made again) */
 };
 
 struct midi_io_callbacks {
@@ -59,6 +67,8 @@ struct midi_io_callbacks {
 	void (*input)(void *context, uint8_t source, const uint8_t *bytes, size_t length);
 	/* name: the port or device concerned, e.g. "USB Keys:USB Keys MIDI 1" */
 	void (*event)(void *context, enum midi_io_event kind, int index, const char *name);
+	/* optional: false stops reading input for now (backpressure, above) */
+	bool (*accepting)(void *context);
 };
 
 struct midi_io_port_spec {
@@ -86,7 +96,7 @@ struct midi_io_backend {
 	int (*input_fds)(struct midi_io *io, struct pollfd *fds, int max, int *tick_ms);
 	void (*service_input)(struct midi_io *io);
 	bool (*send)(struct midi_io *io, int output, const uint8_t *bytes, size_t length);
-	void (*flush)(struct midi_io *io);
+	bool (*flush)(struct midi_io *io);
 	void (*describe)(struct midi_io *io, midi_io_line_fn line, void *context);
 	bool (*list)(midi_io_line_fn line, void *context, char *err, size_t err_size);
 	void (*close)(struct midi_io *io);

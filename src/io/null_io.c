@@ -45,9 +45,10 @@ static bool null_send(struct midi_io *io, int output, const uint8_t *bytes, size
 	return true;
 }
 
-static void null_flush(struct midi_io *io)
+static bool null_flush(struct midi_io *io)
 {
 	(void)io;
+	return true;
 }
 
 static void null_describe(struct midi_io *io, midi_io_line_fn line, void *context)

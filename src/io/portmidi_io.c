@@ -424,7 +424,8 @@ static void pm_service_input(struct midi_io *io)
 
 	/* Read under the lock, convert and deliver without it; each round
 	 * takes one chunk from every input, so no input starves another. */
-	for (bool more = true; more;) {
+	/* backpressure: stop between rounds; the rest waits in PortMidi's buffer */
+	for (bool more = true; more && (!io->cb.accepting || io->cb.accepting(io->cb.context));) {
 		struct pending_input pending[MIDI_IO_MAX_SOURCES];
 		int n = 0;
 		more = false;
@@ -528,9 +529,10 @@ drop:
 	return false;
 }
 
-static void pm_flush(struct midi_io *io)
+static bool pm_flush(struct midi_io *io)
 {
 	(void)io; /* latency 0: every write went out at once */
+	return true;
 }
 
 static void pm_describe(struct midi_io *io, midi_io_line_fn line, void *context)

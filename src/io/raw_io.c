@@ -11,6 +11,13 @@
  *     old hang-up, so poll sleeps until someone writes);
  *   - a regular file has been read once: SOURCE_GONE, and it is done;
  *   - a device that fails (unplugged): SOURCE_GONE, reopened on the tick.
+ * A FIFO removed and made again (mkfifo) under the same name is a new
+ * FIFO the old descriptor never sees: twice a second the name is looked up
+ * again, and when it names another FIFO, what the old one still holds is
+ * read, its source reported gone (its notes end), and the new one opened;
+ * both the removal and the new FIFO are told to the log (MIDI_IO_NOTICE).
+ * Reading stops whenever the daemon is not accepting input (backpressure):
+ * the bytes wait in the FIFO or device.
  *
  * Output: the first path in each [output NAME] connect, opened
  * O_WRONLY|O_NONBLOCK (a regular file is created if missing and appended
@@ -18,10 +25,12 @@
  * waits, retried on a 100 ms tick, and reports OUTPUT_CONNECTED when a
  * reader comes (the daemon then sends the synth set-up).  Until then, and
  * for an output with no path, messages are accepted and go nowhere, as on
- * a sequencer port nobody subscribed to.  A write that would block is
- * refused (the caller counts a drop); a write cut short keeps the rest in
- * a small per-output buffer written before anything else; a reader that
- * goes away (EPIPE; the daemon ignores SIGPIPE) or a device that fails
+ * a sequencer port nobody subscribed to.  send() puts a message in a small
+ * per-output buffer and flush() writes the buffer in one write (a batch of
+ * messages, one system call); a write cut short keeps the rest there, in
+ * order.  A message that finds the buffer full and the reader taking
+ * nothing is refused (the output thread tries it again later); a reader
+ * that goes away (EPIPE; the daemon ignores SIGPIPE) or a device that fails
  * makes the output wait again, reported as OUTPUT_GONE.
  *
  * Threads: the input side and the reopening run on the input thread, the
@@ -38,12 +47,14 @@
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
+#include <time.h>
 #include <unistd.h>
 
 #include "midi_io.h"
 
 #define RAW_PENDING_MAX 16384
 #define RAW_RETRY_MS 100
+#define RAW_RENAME_CHECK_MS 500
 
 enum raw_kind { RAW_FIFO, RAW_DEVICE, RAW_FILE };
 
@@ -53,6 +64,9 @@ struct raw_input {
 	int fd;                      /* -1: closed (device gone, file done) */
 	bool connected;              /* bytes seen since (re)opening */
 	bool done;                   /* a regular file read to its end */
+	dev_t dev;                   /* what fd is (a FIFO made again is another) */
+	ino_t ino;
+	bool missing_told;           /* the log knows the FIFO's name is gone */
 };
 
 struct raw_output {
@@ -68,6 +82,7 @@ struct raw_output {
 
 struct midi_io {
 	struct midi_io_callbacks callbacks;
+	int64_t renames_checked_ms;
 	int input_count;
 	struct raw_input inputs[MIDI_IO_MAX_PATTERNS];
 	int output_count;
@@ -91,6 +106,37 @@ static const char *kind_name(enum raw_kind kind)
 	return kind == RAW_FIFO ? "FIFO" : kind == RAW_FILE ? "file" : "device";
 }
 
+static int open_input_fd(struct raw_input *in)
+{
+	int fd = open(in->path, O_RDONLY | O_NONBLOCK | O_CLOEXEC);
+	struct stat st;
+	if (fd >= 0 && fstat(fd, &st) == 0) {
+		in->dev = st.st_dev;
+		in->ino = st.st_ino;
+	}
+	return fd;
+}
+
+static int64_t now_ms(void)
+{
+	struct timespec ts;
+	clock_gettime(CLOCK_MONOTONIC, &ts);
+	return (int64_t)ts.tv_sec * 1000 + ts.tv_nsec / 1000000;
+}
+
+static void notice(struct midi_io *io, int source, const char *fmt, const char *path)
+{
+	char text[MIDI_IO_NAME_MAX * 3];
+	snprintf(text, sizeof text, fmt, path);
+	if (io->callbacks.event)
+		io->callbacks.event(io->callbacks.context, MIDI_IO_NOTICE, source, text);
+}
+
+static bool accepting(struct midi_io *io)
+{
+	return !io->callbacks.accepting || io->callbacks.accepting(io->callbacks.context);
+}
+
 static int open_output_fd(const char *path)
 {
 	return open(path, O_WRONLY | O_NONBLOCK | O_CLOEXEC | O_CREAT | O_APPEND, 0644);
@@ -111,7 +157,7 @@ static struct midi_io *raw_open(const struct midi_io_spec *spec,
 	for (int i = 0; i < spec->input.connect_count && i < MIDI_IO_MAX_PATTERNS; i++) {
 		struct raw_input *in = &io->inputs[io->input_count++];
 		snprintf(in->path, sizeof in->path, "%s", spec->input.connect[i]);
-		in->fd = open(in->path, O_RDONLY | O_NONBLOCK | O_CLOEXEC);
+		in->fd = open_input_fd(in);
 		if (in->fd < 0) {
 			snprintf(err, err_size,
 				 "raw backend: cannot open input %s: %s (make it with mkfifo, or fix [input] connect)",
@@ -195,7 +241,7 @@ static void input_gone(struct midi_io *io, int source)
 	if (in->kind == RAW_FILE)
 		in->done = true;
 	else if (in->kind == RAW_FIFO)
-		in->fd = open(in->path, O_RDONLY | O_NONBLOCK | O_CLOEXEC); /* the next writer */
+		in->fd = open_input_fd(in); /* the next writer (-1 if removed: retried on the tick) */
 }
 
 static void service_one_input(struct midi_io *io, int source)
@@ -203,6 +249,8 @@ static void service_one_input(struct midi_io *io, int source)
 	struct raw_input *in = &io->inputs[source];
 	uint8_t buf[1024];
 	for (;;) {
+		if (!accepting(io))
+			return; /* backpressure: the rest waits in the FIFO or device */
 		ssize_t n = read(in->fd, buf, sizeof buf);
 		if (n > 0) {
 			if (!in->connected) {
@@ -253,16 +301,73 @@ static void service_outputs(struct midi_io *io)
 	}
 }
 
+/* Only what is there now: an idle FIFO would read as end of file. */
+static void read_ready(struct midi_io *io, int source)
+{
+	struct pollfd pfd = {.fd = io->inputs[source].fd, .events = POLLIN};
+	if (pfd.fd >= 0 && poll(&pfd, 1, 0) > 0 && (pfd.revents & (POLLIN | POLLHUP | POLLERR)))
+		service_one_input(io, source);
+}
+
+/* A FIFO removed, or removed and made again under its name (see the top). */
+static void check_renamed(struct midi_io *io, int source)
+{
+	struct raw_input *in = &io->inputs[source];
+	struct stat st;
+	if (stat(in->path, &st) != 0) {
+		if (!in->missing_told)
+			notice(io, source, "input FIFO %s was removed; latticed reads what is left in it and "
+			       "opens the FIFO again when one is made under that name", in->path);
+		in->missing_told = true;
+		return;
+	}
+	if (!S_ISFIFO(st.st_mode) || (st.st_dev == in->dev && st.st_ino == in->ino))
+		return;
+	int fd = open(in->path, O_RDONLY | O_NONBLOCK | O_CLOEXEC);
+	if (fd < 0)
+		return;
+	read_ready(io, source);
+	if (in->fd < 0 || in->kind != RAW_FIFO) {
+		close(fd); /* ended while reading what was left: open it the usual way */
+		return;
+	}
+	if (in->connected && io->callbacks.event)
+		io->callbacks.event(io->callbacks.context, MIDI_IO_SOURCE_GONE, source, in->path);
+	in->connected = false;
+	close(in->fd);
+	in->fd = fd;
+	in->dev = st.st_dev;
+	in->ino = st.st_ino;
+	in->missing_told = false;
+	notice(io, source, "input FIFO %s was made again; reading the new one", in->path);
+}
+
+static void reopen_input(struct midi_io *io, int source)
+{
+	struct raw_input *in = &io->inputs[source];
+	in->fd = open_input_fd(in); /* replugged, or the FIFO made again? */
+	if (in->fd >= 0 && in->kind == RAW_FIFO && in->missing_told) {
+		in->missing_told = false;
+		notice(io, source, "input FIFO %s was made again; reading the new one", in->path);
+	}
+}
+
 static void raw_service_input(struct midi_io *io)
 {
 	struct pollfd fds[MIDI_IO_MAX_PATTERNS];
 	int index[MIDI_IO_MAX_PATTERNS], n = 0;
+	int64_t now = now_ms();
+	bool check = now - io->renames_checked_ms >= RAW_RENAME_CHECK_MS;
+	if (check)
+		io->renames_checked_ms = now;
 	for (int i = 0; i < io->input_count; i++) {
 		struct raw_input *in = &io->inputs[i];
-		if (in->fd < 0 && !in->done && in->kind == RAW_DEVICE) {
-			in->fd = open(in->path, O_RDONLY | O_NONBLOCK | O_CLOEXEC); /* replugged? */
+		if (in->fd < 0 && !in->done && (in->kind == RAW_DEVICE || in->kind == RAW_FIFO)) {
+			reopen_input(io, i);
 			continue;
 		}
+		if (check && in->fd >= 0 && in->kind == RAW_FIFO && accepting(io))
+			check_renamed(io, i);
 		if (in->fd < 0)
 			continue;
 		fds[n].fd = in->fd;
@@ -271,7 +376,7 @@ static void raw_service_input(struct midi_io *io)
 		index[n++] = i;
 	}
 	/* only the ready ones: an idle FIFO would read as end of file */
-	if (n > 0 && poll(fds, (nfds_t)n, 0) > 0)
+	if (n > 0 && accepting(io) && poll(fds, (nfds_t)n, 0) > 0)
 		for (int k = 0; k < n; k++)
 			if (fds[k].revents & (POLLIN | POLLHUP | POLLERR))
 				service_one_input(io, index[k]);
@@ -320,44 +425,39 @@ static bool write_pending(struct raw_output *out, int fd)
 	return out->pending_length == 0;
 }
 
+/* Messages collect in the output's buffer and go out in one write at the
+ * flush after each batch; a full buffer is written first, and refuses the
+ * message only if the reader still takes nothing. */
 static bool raw_send(struct midi_io *io, int output, const uint8_t *bytes, size_t length)
 {
-	if (output < 0 || output >= io->output_count)
+	if (output < 0 || output >= io->output_count || length > RAW_PENDING_MAX)
 		return false;
 	struct raw_output *out = &io->outputs[output];
 	int fd = atomic_load_explicit(&out->fd, memory_order_acquire);
 	if (fd < 0)
-		return true; /* nobody listens: nothing to drop */
-	if (!write_pending(out, fd)) {
+		return true; /* nobody listens: nothing to keep */
+	if (out->pending_length + length > sizeof out->pending) {
+		(void)write_pending(out, fd);
 		if (atomic_load_explicit(&out->fd, memory_order_relaxed) < 0)
-			return true;
+			return true; /* the reader went away */
 		if (out->pending_length + length > sizeof out->pending)
-			return false;
-		memcpy(out->pending + out->pending_length, bytes, length);
-		out->pending_length += length;
-		return true;
+			return false; /* would block: the caller tries again */
 	}
-	ssize_t n = write_some(out, fd, bytes, length);
-	if (n < 0)
-		return true; /* the reader went away with it */
-	if (n == 0)
-		return false; /* would block: the caller counts the drop */
-	if ((size_t)n < length) {
-		/* a message cut in two must still arrive whole, so keep the rest */
-		memcpy(out->pending, bytes + n, length - (size_t)n);
-		out->pending_length = length - (size_t)n;
-	}
+	memcpy(out->pending + out->pending_length, bytes, length);
+	out->pending_length += length;
 	return true;
 }
 
-static void raw_flush(struct midi_io *io)
+static bool raw_flush(struct midi_io *io)
 {
+	bool all = true;
 	for (int i = 0; i < io->output_count; i++) {
 		struct raw_output *out = &io->outputs[i];
 		int fd = atomic_load_explicit(&out->fd, memory_order_acquire);
-		if (fd >= 0)
-			(void)write_pending(out, fd);
+		if (fd >= 0 && !write_pending(out, fd))
+			all &= atomic_load_explicit(&out->fd, memory_order_relaxed) < 0;
 	}
+	return all;
 }
 
 static void raw_describe(struct midi_io *io, midi_io_line_fn line, void *context)

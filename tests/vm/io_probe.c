@@ -188,7 +188,7 @@ static void *output_thread(void *arg)
 			pthread_mutex_lock(&queue_lock);
 		}
 		pthread_mutex_unlock(&queue_lock);
-		backend->flush(io);
+		(void)backend->flush(io);
 		pthread_mutex_lock(&queue_lock);
 	}
 	pthread_mutex_unlock(&queue_lock);
@@ -227,7 +227,7 @@ static void on_input(void *context, uint8_t source, const uint8_t *bytes, size_t
 static void on_event(void *context, enum midi_io_event kind, int index, const char *name)
 {
 	static const char *const names[] = { "source-connected", "source-gone", "output-connected",
-					      "output-gone", "input-lost" };
+					      "output-gone", "input-lost", "notice" };
 	(void)context;
 	printf("%s %d %s\n", names[kind], index, name);
 	if (kind == MIDI_IO_SOURCE_CONNECTED)
