@@ -50,7 +50,7 @@ void output_thread_init(struct output_thread *t)
 	for (int i = 0; i < MIDI_IO_MAX_OUTPUTS; i++) {
 		atomic_init(&t->sent[i], 0);
 		atomic_init(&t->send_drops[i], 0);
-		t->wire_status[i] = 0;
+		midi_running_status_reset(&t->wire[i]);
 		t->drops_logged[i] = 0;
 		t->drop_logged_ms[i] = 0;
 	}
@@ -72,22 +72,12 @@ static void note_drop(struct output_thread *t, int output)
 	wake_fd_signal(t->main_wake_fd);
 }
 
-static bool is_channel_status(uint8_t b)
-{
-	return b >= 0x80 && b < 0xF0;
-}
-
 static bool send_one(struct output_thread *t, int output, const uint8_t *bytes, size_t length,
 		     bool retry)
 {
-	const uint8_t *start = bytes;
-	size_t n = length;
-	bool compress = t->running_status[output] && is_channel_status(bytes[0]) &&
-			bytes[0] == t->wire_status[output];
-	if (compress) {
-		start++;
-		n--;
-	}
+	size_t skip = t->running_status[output] ? midi_running_status_skip(&t->wire[output], bytes) : 0;
+	const uint8_t *start = bytes + skip;
+	size_t n = length - skip;
 	bool ok = t->backend->send(t->io, output, start, n);
 	if (!ok && retry) {
 		int64_t give_up = monotonic_ms() + STOP_RETRY_MS;
@@ -99,13 +89,10 @@ static bool send_one(struct output_thread *t, int output, const uint8_t *bytes, 
 		}
 	}
 	if (!ok) {
-		t->wire_status[output] = 0;
+		midi_running_status_reset(&t->wire[output]);
 		return false;
 	}
-	if (is_channel_status(bytes[0]))
-		t->wire_status[output] = bytes[0];
-	else if (bytes[0] < 0xF8)
-		t->wire_status[output] = 0; /* system common and SysEx cancel it (MIDI 1.0) */
+	midi_running_status_sent(&t->wire[output], bytes[0]);
 	return true;
 }
 
@@ -118,7 +105,7 @@ static int drain(struct output_thread *t, bool retry)
 	while ((length = msg_queue_pop(t->messages, &output, t->buffer, sizeof t->buffer)) > 0) {
 		if (output & MSG_OUTPUT_RECONNECTED) {
 			if ((output & ~MSG_OUTPUT_RECONNECTED) < t->output_count)
-				t->wire_status[output & ~MSG_OUTPUT_RECONNECTED] = 0;
+				midi_running_status_reset(&t->wire[output & ~MSG_OUTPUT_RECONNECTED]);
 			continue;
 		}
 		if (output >= t->output_count)

@@ -10,9 +10,10 @@
  * stop, it drains everything left, retrying refusals for up to about two
  * seconds so the last note-offs get out, then returns.
  *
- * Running status (running_status = yes) is applied here, only for the raw
- * backend, whose bytes go to the wire as they are: a channel message whose
- * status byte equals the last one written goes without it.  After a refused
+ * Running status (running_status = yes) is applied here, only for a
+ * backend whose bytes go to the wire as they are (byte_stream, the raw
+ * backend), by the core's rule (midi_running_status): a channel message
+ * whose status byte equals the last one written goes without it.  After a refused
  * message the next one always carries its status byte, so a drop can never
  * leave the receiver reading data bytes under the wrong status.
  */
@@ -24,6 +25,7 @@
 #include <stdbool.h>
 #include <stdint.h>
 
+#include "latticed/midi_encoder.h"
 #include "log_ring.h"
 #include "midi_io.h"
 #include "msg_queue.h"
@@ -48,7 +50,7 @@ struct output_thread {
 
 	/* the thread's own */
 	pthread_t thread;
-	uint8_t wire_status[MIDI_IO_MAX_OUTPUTS];
+	struct midi_running_status wire[MIDI_IO_MAX_OUTPUTS];
 	uint64_t drops_logged[MIDI_IO_MAX_OUTPUTS];
 	int64_t drop_logged_ms[MIDI_IO_MAX_OUTPUTS];
 	uint8_t buffer[MSG_QUEUE_MESSAGE_MAX];

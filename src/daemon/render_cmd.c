@@ -22,14 +22,11 @@
 #include <unistd.h>
 
 #include "latticed/midi_msg.h"
+#include "notice_text.h"
 #include "smf_file.h"
 
 #define CC_SUSTAIN 64
 #define CC_SOSTENUTO 66
-#define NO_NOTE (-1)
-#define STRINGIFY(x) #x
-#define TEXT_OF(x) STRINGIFY(x)
-#define ENGINE_MAX_NOTES_TEXT TEXT_OF(ENGINE_MAX_NOTES)
 
 enum out_kind { OUT_INPUT, OUT_MIDI, OUT_SYSEX };
 
@@ -221,40 +218,30 @@ static void feed(struct render *r, size_t track, const struct smf_event *ev)
 	engine_handle(r->engine, 0, m);
 }
 
+/* A key's release goes to the track of its note-on, a pedal's to the
+ * track that last moved it. */
+static void route_release(void *context, const struct midi_msg *m)
+{
+	struct render *r = context;
+	int ch = midi_msg_channel(m);
+	if (midi_msg_type(m) == MIDI_NOTE_OFF)
+		r->track = r->key_track[ch][m->data[0]];
+	else
+		r->track = r->pedal_track[ch];
+}
+
 /* Releases what the input left sounding, at `tick`. */
 static void release_hanging(struct render *r, size_t setup_track, uint32_t tick)
 {
 	struct engine *e = r->engine;
-	if (e->note_count == 0)
+	if (engine_note_count(e) == 0)
 		return;
 	r->tick = tick;
 	r->report->hanging_tick = tick > r->report->hanging_tick ? tick : r->report->hanging_tick;
-	/* released notes a pedal holds; counted before the keys join them */
-	for (int i = 0; i < ENGINE_MAX_NOTES; i++)
-		r->report->hanging_pedal_notes += e->notes[i].phase == NOTE_RINGING;
-	for (int ch = 0; ch < 16; ch++) {
-		for (int key = 0; key < 128; key++) {
-			if (e->key_down[0][ch][key] == NO_NOTE)
-				continue;
-			r->track = r->key_track[ch][key];
-			struct midi_msg off = midi_msg_note_off((uint8_t)ch, (uint8_t)key,
-								MIDI_DEFAULT_VELOCITY);
-			engine_handle(e, 0, &off);
-			r->report->hanging_keys++;
-		}
-	}
-	for (int ch = 0; ch < 16 && e->note_count > 0; ch++) {
-		r->track = r->pedal_track[ch];
-		if (e->in[ch].sustain) {
-			struct midi_msg up = midi_msg_control((uint8_t)ch, CC_SUSTAIN, 0);
-			engine_handle(e, 0, &up);
-		}
-		if (e->in[ch].sostenuto) {
-			struct midi_msg up = midi_msg_control((uint8_t)ch, CC_SOSTENUTO, 0);
-			engine_handle(e, 0, &up);
-		}
-	}
-	if (e->note_count > 0) {
+	struct engine_release released = engine_release_held(e, route_release, r);
+	r->report->hanging_keys += (size_t)released.keys;
+	r->report->hanging_pedal_notes += (size_t)released.pedal_notes;
+	if (engine_note_count(e) > 0) {
 		r->track = setup_track;
 		engine_panic(e);
 	}
@@ -327,7 +314,7 @@ static bool perform(struct render *r, const struct engine_spec *spec,
 	release_hanging(r, setup_track, end_tick);
 
 	struct engine_stats *sum = &r->report->engine;
-	const struct engine_stats *s = &r->engine->stats;
+	const struct engine_stats *s = engine_stats(r->engine);
 	sum->notes_on += s->notes_on;
 	sum->notes_shared += s->notes_shared;
 	sum->notes_stolen += s->notes_stolen;
@@ -435,9 +422,9 @@ static const char *display_name(const char *path, const char *stdio_name)
 	return smf_file_is_stdio(path) ? stdio_name : path;
 }
 
-static const char *plural(size_t n, const char *one, const char *many)
+static void print_notice(void *context, const char *line)
 {
-	return n == 1 ? one : many;
+	fprintf(stderr, "latticed render: %s: warning: %s\n", (const char *)context, line);
 }
 
 static void print_warnings(const char *in_name, const struct smf *in,
@@ -458,27 +445,8 @@ static void print_warnings(const char *in_name, const struct smf *in,
 			"latticed render: %s: warning: %zu note%s left hanging at the end of the input (%zu without a note-off, %zu held by a pedal), released at tick %u\n",
 			in_name, hanging, hanging == 1 ? "" : "s", rep->hanging_keys,
 			rep->hanging_pedal_notes, rep->hanging_tick);
-	const struct engine_stats *s = &rep->engine;
-	uint32_t n = rep->notices;
-	if (n & NOTICE_BEND_CLAMPED)
-		fprintf(stderr,
-			"latticed render: %s: warning: %u %s clamped: retune plus wheel went beyond the bend range of %d semitones\n",
-			in_name, s->bends_clamped, plural(s->bends_clamped, "bend", "bends"),
-			spec->output.bend_range);
-	if (n & NOTICE_NOTE_STOLEN)
-		fprintf(stderr,
-			"latticed render: %s: warning: %u %s stolen: more notes at once than the output has channels\n",
-			in_name, s->notes_stolen, plural(s->notes_stolen, "note", "notes"));
-	if (n & (NOTICE_NOTE_DROPPED | NOTICE_NOTES_FULL))
-		fprintf(stderr,
-			"latticed render: %s: warning: %u %s dropped: no channel or key was free%s\n",
-			in_name, s->notes_dropped, plural(s->notes_dropped, "note", "notes"),
-			(n & NOTICE_NOTES_FULL) ? " (more than " ENGINE_MAX_NOTES_TEXT " notes at once)" : "");
-	if (n & NOTICE_PASSTHROUGH_BLOCKED)
-		fprintf(stderr,
-			"latticed render: %s: warning: %u %s dropped: on channels not retuned but used by the output\n",
-			in_name, s->passthrough_blocked,
-			plural(s->passthrough_blocked, "message", "messages"));
+	notice_text_lines(rep->notices, &rep->engine, spec->output.bend_range, false, print_notice,
+			  (void *)in_name);
 }
 
 static void print_summary(const char *in_name, const char *out_name,
