@@ -186,15 +186,15 @@ struct engine_out_channel {
 	uint16_t bend;
 	double retune_cents;             /* of the notes on it (bend, mpe) */
 	uint8_t cc[128];
-	uint8_t cc_known[16];            /* bit set: cc[] holds what the synth has */
+	uint64_t cc_known[2];            /* bit set: cc[] holds what the synth has */
 	bool program_known, pressure_known;
 	uint8_t program, pressure;
-	uint8_t keys_on[16];             /* out keys sounding on it */
+	uint64_t keys_on[2];             /* out keys sounding on it */
 };
 
 struct engine_in_channel {
 	uint8_t cc[128];
-	uint8_t cc_set[16];
+	uint64_t cc_set[2];              /* bit set: the player set cc[] */
 	bool program_set, pressure_set;
 	uint8_t program, pressure;
 	uint16_t bend;                   /* raw wheel / per-note bend, 8192 centre */
@@ -235,9 +235,11 @@ struct engine {
 	uint16_t used;                   /* output channels written: the pool and the global channel */
 	int global_channel;              /* output channel of the player's global state, or -1 */
 	uint8_t route[16];               /* input -> output channel where fixed (mts) */
+	uint16_t sounding;               /* output channels with notes down or ringing */
 
 	uint32_t serial;
 	struct engine_note notes[ENGINE_MAX_NOTES];
+	uint64_t note_used[ENGINE_MAX_NOTES / 64];  /* bit set: that slot's note sounds */
 	int note_count;
 	int16_t key_down[ENGINE_MAX_SOURCES][16][128];
 	struct engine_out_channel out[16];

@@ -168,10 +168,7 @@ bool engine_init(struct engine *e, const struct engine_spec *spec,
 	e->emit = emit_fn;
 	e->context = context;
 	set_roles(e, &plan);
-	for (int s = 0; s < ENGINE_MAX_SOURCES; s++)
-		for (int ch = 0; ch < 16; ch++)
-			for (int k = 0; k < 128; k++)
-				e->key_down[s][ch][k] = NO_NOTE;
+	memset(e->key_down, 0xFF, sizeof e->key_down); /* NO_NOTE: -1 in every int16_t */
 	for (int ch = 0; ch < 16; ch++) {
 		e->in[ch].bend = PITCH_BEND_CENTRE;
 		e->in[ch].param_msb = e->in[ch].param_lsb = 127;
@@ -191,11 +188,13 @@ void engine_start(struct engine *e)
 
 /* ---- notes ---------------------------------------------------------------- */
 
+/* The lowest free slot: which slot a note gets decides the order in
+ * which panic and steal end notes, so it stays the lowest. */
 static int alloc_note(struct engine *e)
 {
-	for (int i = 0; i < ENGINE_MAX_NOTES; i++)
-		if (e->notes[i].phase == NOTE_FREE)
-			return i;
+	for (int w = 0; w < ENGINE_MAX_NOTES / 64; w++)
+		if (~e->note_used[w])
+			return 64 * w + __builtin_ctzll(~e->note_used[w]);
 	return NO_NOTE;
 }
 
@@ -207,9 +206,12 @@ void engine_end_note(struct engine *e, int index)
 	    e->key_down[n->source][n->in_channel][n->in_key] == index)
 		e->key_down[n->source][n->in_channel][n->in_key] = NO_NOTE;
 	engine_bit_put(o->keys_on, n->out_key, false);
-	if (--o->note_count == 0)
+	if (--o->note_count == 0) {
 		o->freed_at = ++e->serial;
+		e->sounding &= (uint16_t)~(1u << n->out_channel);
+	}
 	n->phase = NOTE_FREE;
+	engine_bit_put(e->note_used, index, false);
 	e->note_count--;
 }
 
@@ -229,7 +231,7 @@ void engine_release_note(struct engine *e, int index, uint8_t velocity)
 void engine_settle_ringing(struct engine *e, int g)
 {
 	const struct engine_in_channel *c = &e->in[g];
-	for (int i = 0; i < ENGINE_MAX_NOTES; i++) {
+	engine_for_each_note(e, i) {
 		struct engine_note *n = &e->notes[i];
 		if (n->phase != NOTE_RINGING || e->global_of[n->in_channel] != g)
 			continue;
@@ -293,8 +295,10 @@ static void note_on(struct engine *e, uint8_t source, int ch, int key, uint8_t v
 	n->preset = (int16_t)e->preset;
 	n->tone = rk->tone;
 	n->period = rk->period;
+	engine_bit_put(e->note_used, index, true);
 	e->note_count++;
 	e->out[at.channel].note_count++;
+	e->sounding |= (uint16_t)(1u << at.channel);
 	engine_bit_put(e->out[at.channel].keys_on, at.key, true);
 	e->key_down[source][ch][key] = (int16_t)index;
 	e->stats.notes_on++;
@@ -393,7 +397,7 @@ void engine_end_source(struct engine *e, uint8_t source)
 {
 	if (source >= ENGINE_MAX_SOURCES)
 		return;
-	for (int i = 0; i < ENGINE_MAX_NOTES; i++) {
+	engine_for_each_note(e, i) {
 		struct engine_note *n = &e->notes[i];
 		if (n->phase == NOTE_DOWN && n->source == source)
 			engine_release_note(e, i, 64);
@@ -411,18 +415,13 @@ void engine_end_source(struct engine *e, uint8_t source)
 
 void engine_panic(struct engine *e)
 {
-	for (int i = 0; i < ENGINE_MAX_NOTES; i++) {
+	engine_for_each_note(e, i) {
 		struct engine_note *n = &e->notes[i];
-		if (n->phase == NOTE_FREE)
-			continue;
 		if (n->phase == NOTE_DOWN)
 			engine_send_note_off(e, n, 64);
 		engine_end_note(e, i);
 	}
-	for (int s = 0; s < ENGINE_MAX_SOURCES; s++)
-		for (int ch = 0; ch < 16; ch++)
-			for (int k = 0; k < 128; k++)
-				e->key_down[s][ch][k] = NO_NOTE;
+	memset(e->key_down, 0xFF, sizeof e->key_down);
 	for (int ch = 0; ch < 16; ch++) {
 		if (!engine_uses(e, ch))
 			continue;
@@ -439,7 +438,7 @@ struct engine_release engine_release_held(struct engine *e,
 {
 	struct engine_release r = {0, 0};
 	/* released notes a pedal holds; counted before the keys join them */
-	for (int i = 0; i < ENGINE_MAX_NOTES; i++)
+	engine_for_each_note(e, i)
 		r.pedal_notes += e->notes[i].phase == NOTE_RINGING;
 	for (int s = 0; s < ENGINE_MAX_SOURCES; s++)
 		for (int ch = 0; ch < 16; ch++)
@@ -507,9 +506,9 @@ bool engine_note_at(const struct engine *e, int n, struct engine_note_info *out)
 {
 	if (n < 0 || n >= e->note_count)
 		return false;
-	for (int i = 0; i < ENGINE_MAX_NOTES; i++) {
+	engine_for_each_note(e, i) {
 		const struct engine_note *note = &e->notes[i];
-		if (note->phase == NOTE_FREE || n-- > 0)
+		if (n-- > 0)
 			continue;
 		out->source = note->source;
 		out->in_channel = note->in_channel;

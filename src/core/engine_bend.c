@@ -39,10 +39,9 @@ static int pick_free_channel(const struct engine *e, uint16_t want)
 {
 	int best = -1;
 	bool best_matches = false;
-	for (int ch = 0; ch < 16; ch++) {
+	for (unsigned idle = e->pool & ~e->sounding; idle; idle &= idle - 1) {
+		int ch = __builtin_ctz(idle);
 		const struct engine_out_channel *o = &e->out[ch];
-		if (!engine_in_pool(e, ch) || o->note_count > 0)
-			continue;
 		bool matches = o->bend_known && o->bend == want;
 		if (best < 0 || (matches && !best_matches) ||
 		    (matches == best_matches && o->freed_at < e->out[best].freed_at)) {
@@ -58,9 +57,10 @@ static int pick_shared_channel(const struct engine *e, int in_ch, double retune,
 {
 	if (engine_is_member(e, in_ch))
 		return -1; /* per-note bends cannot share */
-	for (int ch = 0; ch < 16; ch++) {
+	for (unsigned busy = e->pool & e->sounding; busy; busy &= busy - 1) {
+		int ch = __builtin_ctz(busy);
 		const struct engine_out_channel *o = &e->out[ch];
-		if (!engine_in_pool(e, ch) || o->note_count == 0 || o->source_channel != in_ch ||
+		if (o->source_channel != in_ch ||
 		    !o->bend_known || o->bend != want ||
 		    fabs(o->retune_cents - retune) > RETUNE_EQUAL_CENTS ||
 		    engine_bit(o->keys_on, out_key))
@@ -77,15 +77,13 @@ static int steal_victim(const struct engine *e)
 	int best = -1;
 	bool best_ringing = false;
 	uint32_t best_age = 0;
-	for (int ch = 0; ch < 16; ch++) {
-		const struct engine_out_channel *o = &e->out[ch];
-		if (!engine_in_pool(e, ch) || o->note_count == 0)
-			continue;
+	for (unsigned busy = e->pool & e->sounding; busy; busy &= busy - 1) {
+		int ch = __builtin_ctz(busy);
 		bool all_ringing = true;
 		uint32_t newest = 0, oldest = UINT32_MAX;
-		for (int i = 0; i < ENGINE_MAX_NOTES; i++) {
+		engine_for_each_note(e, i) {
 			const struct engine_note *n = &e->notes[i];
-			if (n->phase == NOTE_FREE || n->out_channel != ch)
+			if (n->out_channel != ch)
 				continue;
 			if (n->phase == NOTE_DOWN)
 				all_ringing = false;
@@ -110,9 +108,9 @@ static int steal_channel(struct engine *e)
 	int victim = steal_victim(e);
 	if (victim < 0)
 		return -1;
-	for (int i = 0; i < ENGINE_MAX_NOTES; i++) {
+	engine_for_each_note(e, i) {
 		struct engine_note *n = &e->notes[i];
-		if (n->phase == NOTE_FREE || n->out_channel != victim)
+		if (n->out_channel != victim)
 			continue;
 		if (n->phase == NOTE_DOWN)
 			engine_send_note_off(e, n, 64);

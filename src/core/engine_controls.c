@@ -42,10 +42,9 @@ static void for_sounding_channels(struct engine *e, int ch, bool member,
 				  void (*fn)(struct engine *, int out_ch, int a, int b),
 				  int a, int b)
 {
-	for (int out_ch = 0; out_ch < 16; out_ch++) {
+	for (unsigned busy = e->pool & e->sounding; busy; busy &= busy - 1) {
+		int out_ch = __builtin_ctz(busy);
 		const struct engine_out_channel *o = &e->out[out_ch];
-		if (!engine_in_pool(e, out_ch) || o->note_count == 0)
-			continue;
 		bool ours = member ? o->source_channel == ch : e->global_of[o->source_channel] == ch;
 		if (ours)
 			fn(e, out_ch, a, b);
@@ -145,7 +144,7 @@ static void reset_controllers(struct engine *e, int ch)
 {
 	struct engine_in_channel *c = &e->in[ch];
 	static const int kept[] = {0, 32, 7, 10, 91, 93};
-	uint8_t keep[16] = {0};
+	uint64_t keep[2] = {0, 0};
 	for (size_t i = 0; i < sizeof kept / sizeof kept[0]; i++)
 		engine_bit_put(keep, kept[i], engine_bit(c->cc_set, kept[i]));
 	memcpy(c->cc_set, keep, sizeof keep);
@@ -160,7 +159,7 @@ static void reset_controllers(struct engine *e, int ch)
 	g->sustain = g->sostenuto = false;
 	engine_bit_put(g->cc_set, 64, false);
 	engine_bit_put(g->cc_set, 66, false);
-	for (int i = 0; i < ENGINE_MAX_NOTES; i++)
+	engine_for_each_note(e, i)
 		if (e->notes[i].phase == NOTE_DOWN && e->global_of[e->notes[i].in_channel] == global)
 			e->notes[i].sostenuto_latched = false;
 	for (int out_ch = 0; out_ch < 16; out_ch++) {
@@ -170,9 +169,8 @@ static void reset_controllers(struct engine *e, int ch)
 		if (o->note_count > 0 && e->global_of[o->source_channel] != global)
 			continue;
 		engine_emit3(e, (uint8_t)(MIDI_CONTROL | out_ch), 121, 0);
-		for (int k = 0; k < 128; k++)
-			if (!engine_bit(keep, k))
-				engine_bit_put(o->cc_known, k, false);
+		o->cc_known[0] &= keep[0];
+		o->cc_known[1] &= keep[1];
 		o->bend_known = o->pressure_known = false;
 		/* the synth centred this channel's bend: sounding notes get
 		 * their retune (and whatever wheel is left) back at once */
@@ -189,7 +187,7 @@ static void reset_controllers(struct engine *e, int ch)
 static void end_channel_notes(struct engine *e, int ch, int cc)
 {
 	int global = e->global_of[ch];
-	for (int i = 0; i < ENGINE_MAX_NOTES; i++) {
+	engine_for_each_note(e, i) {
 		struct engine_note *n = &e->notes[i];
 		if (n->phase != NOTE_DOWN || e->global_of[n->in_channel] != global)
 			continue;
@@ -219,7 +217,7 @@ static void pedal(struct engine *e, uint8_t source, int g, int cc, bool down)
 		/* sostenuto holds the notes that are down right now */
 		bool latch = down && !c->sostenuto;
 		if (latch || !down)
-			for (int i = 0; i < ENGINE_MAX_NOTES; i++) {
+			engine_for_each_note(e, i) {
 				struct engine_note *n = &e->notes[i];
 				if (n->phase == NOTE_DOWN && e->global_of[n->in_channel] == g)
 					n->sostenuto_latched = latch;

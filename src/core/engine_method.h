@@ -94,26 +94,54 @@ static inline bool engine_is_parameter_cc(int cc)
 	return cc == 6 || cc == 38 || (cc >= 96 && cc <= 101);
 }
 
-static inline bool engine_bit(const uint8_t *bits, int i)
+/* Bit sets of keys or controllers (0..127) and of note slots, 64 to a word. */
+static inline bool engine_bit(const uint64_t *bits, int i)
 {
-	return (bits[i >> 3] >> (i & 7)) & 1;
+	return (bits[i >> 6] >> (i & 63)) & 1;
 }
 
-static inline void engine_bit_put(uint8_t *bits, int i, bool on)
+static inline void engine_bit_put(uint64_t *bits, int i, bool on)
 {
 	if (on)
-		bits[i >> 3] = (uint8_t)(bits[i >> 3] | (1u << (i & 7)));
+		bits[i >> 6] |= (uint64_t)1 << (i & 63);
 	else
-		bits[i >> 3] = (uint8_t)(bits[i >> 3] & ~(1u << (i & 7)));
+		bits[i >> 6] &= ~((uint64_t)1 << (i & 63));
 }
+
+/* The first slot at or after `from` that holds a note, or NO_NOTE: the
+ * notes in slot order without looking at the free slots. */
+static inline int engine_next_note(const struct engine *e, int from)
+{
+	const int words = ENGINE_MAX_NOTES / 64;
+	for (int w = from >> 6; w < words; w++) {
+		uint64_t bits = e->note_used[w];
+		if (w == from >> 6)
+			bits &= ~(uint64_t)0 << (from & 63);
+		if (bits)
+			return 64 * w + __builtin_ctzll(bits);
+	}
+	return NO_NOTE;
+}
+
+#define engine_for_each_note(e, i) \
+	for (int i = engine_next_note((e), 0); i != NO_NOTE; i = engine_next_note((e), i + 1))
 
 /* ---- to the synth (engine_synth.c) ---------------------------------------- */
 
 void engine_emit(struct engine *e, const struct midi_msg *m);
 void engine_emit3(struct engine *e, uint8_t status, uint8_t d1, uint8_t d2);
-/* Each remembers what the synth now holds and sends nothing it already has
- * (engine_send_cc with force: always). */
-void engine_send_cc(struct engine *e, int ch, int cc, uint8_t value, bool force);
+/* A controller to output channel ch, remembered as what the synth has. */
+void engine_write_cc(struct engine *e, int ch, int cc, uint8_t value);
+
+/* Each of these remembers what the synth now holds and sends nothing it
+ * already has (engine_send_cc with force: always). */
+static inline void engine_send_cc(struct engine *e, int ch, int cc, uint8_t value, bool force)
+{
+	const struct engine_out_channel *o = &e->out[ch];
+	if (force || !engine_bit(o->cc_known, cc) || o->cc[cc] != value)
+		engine_write_cc(e, ch, cc, value);
+}
+
 void engine_send_rpn(struct engine *e, int ch, enum rpn_param param, uint8_t value);
 void engine_send_program(struct engine *e, int ch, uint8_t program);
 void engine_send_pressure(struct engine *e, int ch, uint8_t value);

@@ -25,11 +25,9 @@ void engine_emit3(struct engine *e, uint8_t status, uint8_t d1, uint8_t d2)
 	engine_emit(e, &m);
 }
 
-void engine_send_cc(struct engine *e, int ch, int cc, uint8_t value, bool force)
+void engine_write_cc(struct engine *e, int ch, int cc, uint8_t value)
 {
 	struct engine_out_channel *o = &e->out[ch];
-	if (!force && engine_bit(o->cc_known, cc) && o->cc[cc] == value)
-		return;
 	engine_emit3(e, (uint8_t)(MIDI_CONTROL | ch), (uint8_t)cc, value);
 	o->cc[cc] = value;
 	engine_bit_put(o->cc_known, cc, true);
@@ -94,12 +92,13 @@ void engine_send_note_off(struct engine *e, const struct engine_note *n, uint8_t
 
 uint16_t engine_bend_value(struct engine *e, double cents, int range)
 {
-	struct bend b = pitch_bend_for_cents(cents, range, e->spec.output.bend_played);
-	if (b.clamped) {
+	bool clamped;
+	uint16_t value = pitch_bend_value(cents, range, e->spec.output.bend_played, &clamped);
+	if (clamped) {
 		e->stats.bends_clamped++;
 		engine_notice(e, NOTICE_BEND_CLAMPED);
 	}
-	return b.value;
+	return value;
 }
 
 void engine_forget_synth(struct engine *e)
@@ -130,12 +129,24 @@ static uint8_t cc_default(int cc)
 	}
 }
 
+#define BIT(n) ((uint64_t)1 << (n))
+
+/* The controllers the sync walks: 1 to 119 but the bank LSB (it goes with
+ * the bank MSB, before the program) and the RPN/NRPN machinery. */
+static const uint64_t synced_ccs[2] = {
+	~BIT(0) & ~BIT(6) & ~BIT(32) & ~BIT(38),
+	(BIT(120 - 64) - 1) & ~(BIT(96 - 64) | BIT(97 - 64) | BIT(98 - 64) | BIT(99 - 64) |
+				BIT(100 - 64) | BIT(101 - 64)),
+};
+
 /*
  * A channel may have served another input channel before (or been
  * stolen): whatever it was told then and the new owner never set goes
  * back to its default, so no pedal or controller of the previous owner
  * lingers.  With a global channel (MPE output) the player's global state
- * lives there, not on the note channels.
+ * lives there, not on the note channels.  Only controllers somebody set,
+ * or the synth was told, can need a message: the walk visits just those,
+ * in ascending order.
  */
 void engine_sync_channel(struct engine *e, int ch, int in_ch)
 {
@@ -160,15 +171,21 @@ void engine_sync_channel(struct engine *e, int ch, int in_ch)
 			engine_send_program(e, ch, global->program);
 		}
 	}
-	for (int cc = 1; cc < 120; cc++) {
-		if (cc == 32 || engine_is_parameter_cc(cc))
-			continue;
-		if (m && engine_bit(m->cc_set, cc))
-			engine_send_cc(e, ch, cc, m->cc[cc], false);
-		else if (global && engine_bit(global->cc_set, cc))
-			engine_send_cc(e, ch, cc, global->cc[cc], false);
-		else if (engine_bit(o->cc_known, cc))
-			engine_send_cc(e, ch, cc, cc_default(cc), false);
+	for (int w = 0; w < 2; w++) {
+		uint64_t member_set = m ? m->cc_set[w] : 0;
+		uint64_t global_set = global ? global->cc_set[w] : 0;
+		uint64_t todo = (member_set | global_set | o->cc_known[w]) & synced_ccs[w];
+		while (todo) {
+			int bit = __builtin_ctzll(todo);
+			int cc = 64 * w + bit;
+			todo &= todo - 1;
+			if ((member_set >> bit) & 1)
+				engine_send_cc(e, ch, cc, m->cc[cc], false);
+			else if ((global_set >> bit) & 1)
+				engine_send_cc(e, ch, cc, global->cc[cc], false);
+			else
+				engine_send_cc(e, ch, cc, cc_default(cc), false);
+		}
 	}
 	if (m && m->pressure_set)
 		engine_send_pressure(e, ch, m->pressure);

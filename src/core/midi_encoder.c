@@ -11,6 +11,8 @@ size_t midi_msg_encoded_length(const struct midi_msg *m)
 {
 	if (!midi_msg_is_valid(m))
 		return 0;
+	if (midi_msg_is_channel(m))
+		return 1 + (size_t)midi_channel_data_length(m->status);
 	if (m->status == MIDI_SYSEX)
 		return m->sysex_length;
 	return 1 + (size_t)midi_status_data_length(m->status);
