@@ -135,7 +135,6 @@ static void make_performance(struct performance *p, long events)
 /* ---- the path a daemon runs: parser -> engine -> encoder ---------------- */
 
 struct output {
-	struct midi_encoder encoder;
 	uint8_t bytes[1 << 16];
 	size_t length;
 	unsigned long written;
@@ -148,8 +147,7 @@ static void emit(void *context, const struct midi_msg *m)
 		o->written += o->length;
 		o->length = 0;   /* a backend would have sent it */
 	}
-	o->length += midi_encoder_write(&o->encoder, m, o->bytes + o->length,
-					sizeof o->bytes - o->length);
+	o->length += midi_msg_encode(m, o->bytes + o->length, sizeof o->bytes - o->length);
 }
 
 struct path {
@@ -262,7 +260,6 @@ static int run_method(enum retune_method method, const struct performance *perf)
 		return 1;
 	}
 	midi_parser_init(&path.parser, path.sysex, sizeof path.sysex);
-	midi_encoder_init(&path.output.encoder, false);
 	engine_start(&path.engine);
 	double start = now();
 	play(&path, perf);

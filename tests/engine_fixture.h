@@ -44,6 +44,21 @@ static bool fixture_preset(struct lattice *lat, struct keymap *map, struct engin
 	return true;
 }
 
+/* The two presets the engine's tests share: p0, a hexany (1 3 5 7) laid
+ * out from key 57 at 220 Hz; p1, a dekany (1 3 5 7 9) from key 60 at
+ * middle C (261.626 Hz, 12-TET from A4 = 440 Hz). */
+static inline bool fixture_two_presets(struct lattice lat[2], struct keymap map[2],
+				       struct engine_tunings *tunings, struct core_error *err)
+{
+	static const char *const hexany[] = {"1", "3", "5", "7"};
+	static const char *const dekany[] = {"1", "3", "5", "7", "9"};
+	tunings->count = 2;
+	return fixture_preset(&lat[0], &map[0], &tunings->presets[0], "p0", hexany, 4, 57, 220.0,
+			      err) &&
+	       fixture_preset(&lat[1], &map[1], &tunings->presets[1], "p1", dekany, 5, 60,
+			      261.6255653005986, err);
+}
+
 static struct engine_spec fixture_spec(enum retune_method method)
 {
 	struct engine_spec s;

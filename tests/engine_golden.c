@@ -11,7 +11,7 @@
  * preset changes, a reload, a source going away, panic, a reconnect).
  * Every emitted message is encoded and hashed (FNV-1a 64, common
  * practice for fingerprints; not a correctness check of its own: the
- * promise tests in test_engine.c are that).
+ * promise tests in test_engine*.c are that).
  *
  *   engine_golden [EVENTS]     default 200000 input messages per scenario
  */
@@ -239,7 +239,7 @@ static void run(const char *name, struct engine_spec spec, uint64_t seed, long e
 		}
 	}
 	engine_panic(&engine);
-	const struct engine_stats *st = &engine.stats;
+	const struct engine_stats *st = engine_stats(&engine);
 	printf("%-28s %016llx messages %lu bytes %lu on %u shared %u stolen %u dropped %u silent %u clamped %u mts %u\n",
 	       name, (unsigned long long)f.hash, f.messages, f.bytes, st->notes_on, st->notes_shared,
 	       st->notes_stolen, st->notes_dropped, st->silent_keys, st->bends_clamped,

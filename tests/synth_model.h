@@ -97,7 +97,7 @@ static bool model_channel_sounds(const struct model_channel *c)
 	return false;
 }
 
-static int model_sounding_count(const struct synth_model *s)
+static inline int model_sounding_count(const struct synth_model *s)
 {
 	int n = 0;
 	for (int c = 0; c < 16; c++)
@@ -108,7 +108,7 @@ static int model_sounding_count(const struct synth_model *s)
 
 /* Pitch of key on channel c as a note number: tuning word or 12-TET key,
  * plus the bend, plus the zone's master bend for MPE members. */
-static double model_pitch(const struct synth_model *s, int c, int key)
+static inline double model_pitch(const struct synth_model *s, int c, int key)
 {
 	const struct model_channel *m = &s->ch[c];
 	double note = key;

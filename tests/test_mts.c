@@ -15,8 +15,8 @@
 #include <cmocka.h>
 #include <string.h>
 
-#include "latticed/mts.h"
-#include "latticed/rpn.h"
+#include "mts.h"
+#include "rpn.h"
 
 static void single_note_change_layout(void **state)
 {

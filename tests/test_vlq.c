@@ -9,7 +9,7 @@
 #include <stdint.h>
 #include <cmocka.h>
 
-#include "latticed/vlq.h"
+#include "vlq.h"
 
 static const struct {
 	uint32_t value;

@@ -13,7 +13,7 @@
  *     wheel), so an idle channel is brought up to date just before it next
  *     plays ("lazy sync": no 15-fold controller traffic on a DIN link).
  *
- * Methods:
+ * Methods (one file each, src/core/engine_bend.c, _mts.c, _mpe.c):
  *   bend  one note per channel of a pool, the pitch bend set before the
  *         note-on; a free channel that already has the right bend is taken
  *         first, else the free channel released longest ago (its release
@@ -33,7 +33,7 @@
  *
  * Tuning changes (preset, root) apply to new notes only: a sounding note
  * keeps its channel, key and bend until it is released.  The promise
- * tested in tests/test_engine.c: every note-on sent is matched by exactly
+ * tested in tests/test_engine*.c: every note-on sent is matched by exactly
  * one note-off on the same channel and key; once the player has released
  * every key and pedal nothing sounds; a channel's bend changes while it
  * sounds only by the player's own wheel or per-note bend; every note
@@ -142,6 +142,31 @@ struct engine_stats {
 	uint32_t messages_out;
 };
 
+/* One sounding note as the shell sees it (engine_note_at). */
+struct engine_note_info {
+	uint8_t source, in_channel, in_key;  /* where it came from; channels 0..15 */
+	uint8_t out_channel, out_key;        /* where it went */
+	bool ringing;                        /* released, held by a pedal */
+	uint32_t started;                    /* engine_serial() just after it began */
+	int preset;                          /* index into the tunings it began under */
+	int tone, period;                    /* its tone of that preset's lattice */
+	double pitch;                        /* exact pitch as a note number */
+};
+
+/* What engine_release_held let go. */
+struct engine_release {
+	int keys;                            /* note-offs for keys still down */
+	int pedal_notes;                     /* notes that were ringing under a pedal */
+};
+
+/*
+ * ---- private --------------------------------------------------------------
+ * The engine's state is declared here only so a caller can embed a struct
+ * engine without allocating.  Nothing outside src/core/engine*.c reads or
+ * writes these fields: use the functions further down.  The layout changes
+ * without notice.
+ */
+
 enum note_phase { NOTE_FREE, NOTE_DOWN, NOTE_RINGING };
 
 struct engine_note {
@@ -150,29 +175,27 @@ struct engine_note {
 	uint8_t out_channel, out_key;
 	bool sostenuto_latched;
 	uint32_t started;
-	double retune_cents;             /* carried by the bend (bend, mpe) */
 	double note;                     /* exact pitch as a note number */
 	int16_t preset, tone, period;
 };
 
 struct engine_out_channel {
-	bool in_pool;
 	int note_count;                  /* notes down or ringing on it */
 	uint8_t source_channel;          /* input channel of those notes */
 	uint32_t freed_at;               /* serial of its last release (LRU) */
 	bool bend_known;
 	uint16_t bend;
-	double retune_cents;             /* of the notes on it */
+	double retune_cents;             /* of the notes on it (bend, mpe) */
 	uint8_t cc[128];
-	uint8_t cc_known[16];            /* bit set: cc[] holds what the synth has */
+	uint64_t cc_known[2];            /* bit set: cc[] holds what the synth has */
 	bool program_known, pressure_known;
 	uint8_t program, pressure;
-	uint8_t keys_on[16];             /* out keys sounding on it */
+	uint64_t keys_on[2];             /* out keys sounding on it */
 };
 
 struct engine_in_channel {
 	uint8_t cc[128];
-	uint8_t cc_set[16];
+	uint64_t cc_set[2];              /* bit set: the player set cc[] */
 	bool program_set, pressure_set;
 	uint8_t program, pressure;
 	uint16_t bend;                   /* raw wheel / per-note bend, 8192 centre */
@@ -185,8 +208,17 @@ struct engine_in_channel {
 	uint8_t data_msb, data_lsb;
 };
 
+/* What the synth holds for MTS (engine_mts.c). */
+struct engine_mts_state {
+	uint8_t held[128][3];            /* words the synth holds per key */
+	bool held_known[128];
+};
+
+struct engine_method;
+
 struct engine {
 	struct engine_spec spec;
+	const struct engine_method *method;
 	const struct engine_tunings *tunings;
 	engine_emit_fn emit;
 	void *context;
@@ -194,18 +226,26 @@ struct engine {
 	int preset;
 	int root_slot;                   /* 0 = home, t+1 = tone t is 1/1 */
 	struct retune_table table;
+	int reserved_root_keys;
+
+	/* channel roles, fixed by engine_init */
+	uint16_t retuned;                /* input channels retuned */
+	uint16_t members;                /* input channels that are MPE members */
+	uint8_t global_of[16];           /* input channel whose wheel, pedals and controllers apply */
+	uint16_t pool;                   /* output channels notes go to */
+	uint16_t used;                   /* output channels written: the pool and the global channel */
+	int global_channel;              /* output channel of the player's global state, or -1 */
+	uint8_t route[16];               /* input -> output channel where fixed (mts) */
+	uint16_t sounding;               /* output channels with notes down or ringing */
 
 	uint32_t serial;
 	struct engine_note notes[ENGINE_MAX_NOTES];
+	uint64_t note_used[ENGINE_MAX_NOTES / 64];  /* bit set: that slot's note sounds */
 	int note_count;
 	int16_t key_down[ENGINE_MAX_SOURCES][16][128];
 	struct engine_out_channel out[16];
 	struct engine_in_channel in[16];
-	uint8_t master_channel;          /* mpe output */
-	uint8_t mts_channel_of[16];      /* mts: input channel -> output channel */
-	uint8_t mts_held[128][3];        /* words the synth holds (mts) */
-	bool mts_held_known[128];
-	int reserved_root_keys;
+	struct engine_mts_state mts;
 	struct passthrough passthrough;  /* notes on channels not retuned */
 
 	uint32_t notices;
@@ -213,6 +253,8 @@ struct engine {
 	struct engine_stats stats;
 	uint8_t sysex[ENGINE_SYSEX_MAX];
 };
+
+/* ---- driving the engine ------------------------------------------------- */
 
 /* Checks the spec and prepares the engine; emits nothing yet. */
 bool engine_init(struct engine *e, const struct engine_spec *spec,
@@ -236,6 +278,17 @@ void engine_end_source(struct engine *e, uint8_t source);
  * until pressed again. */
 void engine_panic(struct engine *e);
 
+/*
+ * Lets go of what the player still holds, as the player would: a note-off
+ * for every key still down (every source, channel by channel), then, while
+ * anything sounds, pedal-up for every pedal still down.  `before` (may be
+ * NULL) sees each of those messages just before the engine handles it, so
+ * a caller can place what it causes (render: in the track the key came from).
+ */
+struct engine_release engine_release_held(struct engine *e,
+					  void (*before)(void *context, const struct midi_msg *m),
+					  void *context);
+
 /* Tuning changes for new notes.  Return false if out of range. */
 bool engine_select_preset(struct engine *e, int preset);
 bool engine_select_root(struct engine *e, int slot);
@@ -245,6 +298,37 @@ void engine_replace_tunings(struct engine *e, const struct engine_tunings *tunin
 /* Warnings raised since the last call, each reported once per engine. */
 uint32_t engine_take_notices(struct engine *e);
 
+/* ---- reading the engine ------------------------------------------------- */
+
+enum retune_method engine_method(const struct engine *e);
+/* The preset new notes use (an index into the engine's tunings) and its root slot. */
+int engine_preset(const struct engine *e);
+const struct engine_preset *engine_current_preset(const struct engine *e);
+int engine_root(const struct engine *e);               /* 0 = home, t+1 = tone t is 1/1 */
+/* Notes sounding (down or ringing). */
+/* Something still sounds: a retuned note, or one passed through (held by
+ * its key or a pedal). */
+bool engine_sounds(const struct engine *e);
+/* The spec the engine was set up with. */
+const struct engine_spec *engine_spec_of(const struct engine *e);
+/* Notes whose key is down or that ring on: retuned and passed through. */
+int engine_held_notes(const struct engine *e);
+/* The most note-offs and pedal-ups a panic of this engine sends for its notes. */
+int engine_end_size(const struct engine *e);
+/* Notes passed through on channels not retuned whose key is still down. */
+int engine_passthrough_notes(const struct engine *e);
+int engine_note_count(const struct engine *e);
+/* The n-th sounding note (0 <= n < engine_note_count), oldest slot first;
+ * false when there is none. */
+bool engine_note_at(const struct engine *e, int n, struct engine_note_info *out);
+/* Grows whenever a note starts or a channel falls free: a note with
+ * started <= a serial read earlier began before that read. */
+uint32_t engine_serial(const struct engine *e);
+const struct engine_stats *engine_stats(const struct engine *e);
+
 const char *retune_method_name(enum retune_method method);
+/* Does the method's pitch bend carry each note's retune (bend, mpe), or
+ * only the player's wheel (mts: the tuning is in the synth's table)? */
+bool retune_method_bends_notes(enum retune_method method);
 
 #endif

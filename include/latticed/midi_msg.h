@@ -78,6 +78,13 @@ static inline bool midi_status_is_realtime(uint8_t status)
  * (variable).  Returns -1 for a data byte (below 0x80). */
 int midi_status_data_length(uint8_t status);
 
+/* The same for a channel status (80..EF): program change and channel
+ * pressure (Cn, Dn) take one, the others two. */
+static inline int midi_channel_data_length(uint8_t status)
+{
+	return (status & 0xE0) == 0xC0 ? 1 : 2;
+}
+
 /* A message from its parts; data bytes are masked to 7 bits. */
 static inline struct midi_msg midi_msg_make(uint8_t status, uint8_t d1, uint8_t d2)
 {

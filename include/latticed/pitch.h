@@ -39,6 +39,10 @@ struct bend {
 
 struct bend pitch_bend_for_cents(double cents, double range_semitones,
 				 double played_fraction);
+/* Its value alone, with *clamped set as above: no error computed, for the
+ * event path. */
+uint16_t pitch_bend_value(double cents, double range_semitones, double played_fraction,
+			  bool *clamped);
 /* Cents a bend value sounds at on a synth playing played_fraction of it. */
 double pitch_cents_of_bend(uint16_t value, double range_semitones,
 			   double played_fraction);

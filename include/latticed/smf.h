@@ -99,6 +99,9 @@ struct smf {
 	uint8_t *sysex_messages;   /* backing store of SYSEX events' msg */
 };
 
+/* The longest delta time a track event can carry (four VLQ bytes, SMF 1.0). */
+#define SMF_DELTA_MAX 0x0FFFFFFFu
+
 #define SMF_ERROR_TEXT_MAX 200
 
 struct smf_error {

@@ -1,68 +1,57 @@
 /*
- * midi_encoder: message to bytes.  Length and validity are decided before a
- * single byte is written so a refused message leaves buffer and running
- * status untouched.
+ * midi_encoder: message to bytes, and running status on a byte stream
+ * (model in midi_encoder.h).  Length and validity are decided before a
+ * single byte is written, so a refused message leaves the buffer untouched.
  */
 #include "latticed/midi_encoder.h"
 
 #include <string.h>
 
-void midi_encoder_init(struct midi_encoder *e, bool use_running_status)
-{
-	e->running_status = 0;
-	e->use_running_status = use_running_status;
-}
-
-void midi_encoder_reset(struct midi_encoder *e)
-{
-	e->running_status = 0;
-}
-
 size_t midi_msg_encoded_length(const struct midi_msg *m)
 {
 	if (!midi_msg_is_valid(m))
 		return 0;
+	if (midi_msg_is_channel(m))
+		return 1 + (size_t)midi_channel_data_length(m->status);
 	if (m->status == MIDI_SYSEX)
 		return m->sysex_length;
 	return 1 + (size_t)midi_status_data_length(m->status);
 }
 
-static size_t encode(const struct midi_msg *m, bool omit_status, uint8_t *out, size_t capacity)
+size_t midi_msg_encode(const struct midi_msg *m, uint8_t *out, size_t capacity)
 {
-	size_t full = midi_msg_encoded_length(m);
-	if (full == 0)
-		return 0;
-	size_t n = omit_status ? full - 1 : full;
-	if (n > capacity)
+	size_t n = midi_msg_encoded_length(m);
+	if (n == 0 || n > capacity)
 		return 0;
 	if (m->status == MIDI_SYSEX) {
 		memcpy(out, m->sysex, n);
 		return n;
 	}
-	size_t i = 0;
-	if (!omit_status)
-		out[i++] = m->status;
-	for (size_t d = 0; d + 1 < full; d++)
-		out[i++] = m->data[d];
+	out[0] = m->status;
+	for (size_t d = 0; d + 1 < n; d++)
+		out[1 + d] = m->data[d];
 	return n;
 }
 
-size_t midi_msg_encode(const struct midi_msg *m, uint8_t *out, size_t capacity)
+static bool is_channel_status(uint8_t b)
 {
-	return encode(m, false, out, capacity);
+	return b >= 0x80 && b < 0xF0;
 }
 
-size_t midi_encoder_write(struct midi_encoder *e, const struct midi_msg *m, uint8_t *out,
-			  size_t capacity)
+void midi_running_status_reset(struct midi_running_status *rs)
 {
-	bool channel = midi_msg_is_channel(m);
-	bool omit = channel && e->use_running_status && m->status == e->running_status;
-	size_t n = encode(m, omit, out, capacity);
-	if (n == 0)
-		return 0;
-	if (channel)
-		e->running_status = m->status;
-	else if (!midi_status_is_realtime(m->status))
-		e->running_status = 0;
-	return n;
+	rs->status = 0;
+}
+
+size_t midi_running_status_skip(const struct midi_running_status *rs, const uint8_t *bytes)
+{
+	return is_channel_status(bytes[0]) && bytes[0] == rs->status ? 1 : 0;
+}
+
+void midi_running_status_sent(struct midi_running_status *rs, uint8_t status)
+{
+	if (is_channel_status(status))
+		rs->status = status;
+	else if (!midi_status_is_realtime(status))
+		rs->status = 0; /* system common and SysEx cancel it */
 }

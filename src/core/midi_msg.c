@@ -7,32 +7,20 @@
 
 #include <string.h>
 
+/* Data bytes of 8n..En (note off, note on, poly pressure, control,
+ * program, channel pressure, pitch bend) and of F0..FF. */
+static const int8_t channel_lengths[7] = {2, 2, 2, 2, 1, 1, 2};
+static const int8_t system_lengths[16] = {
+	[MIDI_MTC_QUARTER & 0x0F] = 1, [MIDI_SONG_POSITION & 0x0F] = 2, [MIDI_SONG_SELECT & 0x0F] = 1,
+};
+
 int midi_status_data_length(uint8_t status)
 {
 	if (status < 0x80)
 		return -1;
-	switch (status & 0xF0) {
-	case MIDI_NOTE_OFF:
-	case MIDI_NOTE_ON:
-	case MIDI_POLY_PRESSURE:
-	case MIDI_CONTROL:
-	case MIDI_PITCH_BEND:
-		return 2;
-	case MIDI_PROGRAM:
-	case MIDI_CHANNEL_PRESSURE:
-		return 1;
-	default:
-		break;
-	}
-	switch (status) {
-	case MIDI_MTC_QUARTER:
-	case MIDI_SONG_SELECT:
-		return 1;
-	case MIDI_SONG_POSITION:
-		return 2;
-	default:
-		return 0;
-	}
+	if (status < 0xF0)
+		return channel_lengths[(status >> 4) - 8];
+	return system_lengths[status & 0x0F];
 }
 
 static bool status_is_defined(uint8_t status)
@@ -43,6 +31,9 @@ static bool status_is_defined(uint8_t status)
 
 bool midi_msg_is_valid(const struct midi_msg *m)
 {
+	if (midi_msg_is_channel(m)) /* the common case */
+		return !(m->data[0] & 0x80) &&
+		       (midi_channel_data_length(m->status) < 2 || !(m->data[1] & 0x80));
 	if (!status_is_defined(m->status))
 		return false;
 	if (m->status == MIDI_SYSEX) {

@@ -3,7 +3,7 @@
  * (layouts in mts.h).  Every byte is masked to 7 bits so a bad word can
  * never put a status byte inside the SysEx.
  */
-#include "latticed/mts.h"
+#include "mts.h"
 
 uint8_t mts_checksum(const uint8_t *bytes, size_t length)
 {

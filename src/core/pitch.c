@@ -20,20 +20,20 @@ double pitch_hz_of_note(double note)
 	return PITCH_A4_HZ * exp2((note - PITCH_A4_KEY) / 12.0);
 }
 
+uint16_t pitch_bend_value(double cents, double range_semitones, double played_fraction,
+			  bool *clamped)
+{
+	double full_scale = 100.0 * range_semitones * played_fraction;
+	long v = PITCH_BEND_CENTRE + lround(cents / full_scale * 8192.0);
+	*clamped = v < 0 || v > PITCH_BEND_MAX;
+	return (uint16_t)(v < 0 ? 0 : (v > PITCH_BEND_MAX ? PITCH_BEND_MAX : v));
+}
+
 struct bend pitch_bend_for_cents(double cents, double range_semitones,
 				 double played_fraction)
 {
 	struct bend b = {PITCH_BEND_CENTRE, 0.0, false};
-	double full_scale = 100.0 * range_semitones * played_fraction;
-	long v = PITCH_BEND_CENTRE + lround(cents / full_scale * 8192.0);
-	if (v < 0) {
-		v = 0;
-		b.clamped = true;
-	} else if (v > PITCH_BEND_MAX) {
-		v = PITCH_BEND_MAX;
-		b.clamped = true;
-	}
-	b.value = (uint16_t)v;
+	b.value = pitch_bend_value(cents, range_semitones, played_fraction, &b.clamped);
 	b.error_cents = pitch_cents_of_bend(b.value, range_semitones,
 					    played_fraction) - cents;
 	return b;

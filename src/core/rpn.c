@@ -2,7 +2,7 @@
  * rpn: builds RPN control-change sequences (see rpn.h for the order and
  * why CC38 is left out).
  */
-#include "latticed/rpn.h"
+#include "rpn.h"
 
 void rpn_build(uint8_t channel, enum rpn_param param, uint8_t value,
 	       struct midi_msg out[RPN_SEQUENCE_LENGTH])

@@ -17,7 +17,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include "latticed/vlq.h"
+#include "vlq.h"
 
 #if defined(__GNUC__)
 #define SMF_PRINTF(a, b) __attribute__((format(printf, a, b)))

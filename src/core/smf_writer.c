@@ -15,7 +15,7 @@
 #include <string.h>
 
 #include "latticed/midi_encoder.h"
-#include "latticed/vlq.h"
+#include "vlq.h"
 
 #if defined(__GNUC__)
 #define SMF_PRINTF(a, b) __attribute__((format(printf, a, b)))

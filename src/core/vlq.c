@@ -2,7 +2,7 @@
  * vlq: encoder and decoder.  The decoder refuses a fifth byte instead of
  * letting the value wrap, so a corrupt file is reported where it is corrupt.
  */
-#include "latticed/vlq.h"
+#include "vlq.h"
 
 size_t vlq_length(uint32_t value)
 {

@@ -431,8 +431,6 @@ static void handle_replies(struct daemon *d)
 			log_print(LOG_LEVEL_INFO, "now playing %s", rep.text);
 			notify_status("Running: %s", rep.text);
 			break;
-		case REPLY_QUIT_DONE:
-			break;
 		}
 	}
 }
@@ -704,9 +702,7 @@ int daemon_run(const struct daemon_options *options)
 	d.out->output_count = d.cfg->output_count;
 	for (int i = 0; i < d.cfg->output_count; i++) {
 		snprintf(d.out->names[i], sizeof d.out->names[i], "%s", d.cfg->outputs[i].name);
-		/* bytes straight to a wire only with the raw backend; others take whole events */
-		d.out->running_status[i] = d.cfg->outputs[i].running_status &&
-					   strcmp(d.backend->name, "raw") == 0;
+		d.out->running_status[i] = d.cfg->outputs[i].running_status && d.backend->byte_stream;
 	}
 
 	struct midi_io_spec spec;

@@ -20,7 +20,6 @@
 #include <stdio.h>
 #include <string.h>
 
-#include "latticed/passthrough.h"
 #include "output_thread.h"
 
 #define LOW_WATER (INPUT_HIGH_WATER - 512)   /* held-back values resume below this */
@@ -136,7 +135,7 @@ static void flush_store(struct input_thread *t, struct input_output *o)
 
 static bool is_state_command(const struct engine *e, const struct midi_msg *m)
 {
-	return midi_msg_is_channel(m) && midi_msg_channel(m) == e->spec.control.channel;
+	return midi_msg_is_channel(m) && midi_msg_channel(m) == engine_spec_of(e)->control.channel;
 }
 
 /* A cut-off output keeps controller values and tuning commands, nothing else. */
@@ -244,9 +243,9 @@ static int end_source_notes(struct input_thread *t, int index)
 			struct engine *e = &t->outputs[k].engine;
 			if (t->outputs[k].cut_off)
 				continue; /* its recovery ends everything */
-			int before = e->note_count + passthrough_held(&e->passthrough);
+			int before = engine_held_notes(e);
 			engine_end_source(e, (uint8_t)s);
-			ended += before - e->note_count - passthrough_held(&e->passthrough);
+			ended += before - engine_held_notes(e);
 		}
 	}
 	return ended;
@@ -417,7 +416,7 @@ static void recover(struct input_thread *t, struct input_output *o)
 		want(o, RECOVER_FILL);
 		return;
 	}
-	int ended = o->engine.note_count + passthrough_held(&o->engine.passthrough);
+	int ended = engine_held_notes(&o->engine);
 	o->cut_off = false;
 	engine_panic(&o->engine);
 	engine_start(&o->engine);
@@ -458,7 +457,7 @@ static void reconnect(struct input_thread *t, struct input_output *o)
 		/* whatever the old connection left sounding (a synth only unsubscribed) */
 		log_ring_post(&t->log, LOG_LEVEL_INFO,
 			      "output %s: ending every note first (%d held), in case the synth kept some",
-			      o->name, o->engine.note_count + passthrough_held(&o->engine.passthrough));
+			      o->name, engine_held_notes(&o->engine));
 		engine_panic(&o->engine);
 		all_notes_off_everywhere(t, o);
 	}

@@ -23,6 +23,7 @@
 #include "input_feed.h"
 #include "latticed/midi_encoder.h"
 #include "latticed/passthrough.h"
+#include "notice_text.h"
 #include "output_thread.h"
 #include "snapshot.h"
 
@@ -144,6 +145,7 @@ bool input_thread_init(struct input_thread *t, const struct config *cfg,
 		o->index = (uint8_t)i;
 		snprintf(o->name, sizeof o->name, "%s", cfg->outputs[i].name);
 		config_engine_spec(cfg, i, &spec);
+		o->bend_range = spec.output.bend_range;
 		if (!engine_init(&o->engine, &spec, &tunings->engine, emit, o, &cerr)) {
 			snprintf(err, err_size, "%s:%d: [output %s]: %s", cfg->path, cfg->outputs[i].line,
 				 o->name, cerr.text);
@@ -226,19 +228,15 @@ static void reply_done(struct input_thread *t, const struct request *r, bool ok,
 	post_reply(t, &rep);
 }
 
-static const struct engine_preset *current_preset_of(const struct engine *e)
-{
-	return &e->tunings->presets[e->preset];
-}
-
 static void root_label(const struct engine *e, char *buf, size_t size)
 {
-	if (e->root_slot == 0) {
+	int root = engine_root(e);
+	if (root == 0) {
 		snprintf(buf, size, "home");
 		return;
 	}
-	const struct lattice *lat = current_preset_of(e)->lattice;
-	lattice_label(&lat->spec, lat->tones[e->root_slot - 1].seeds, buf, size);
+	const struct lattice *lat = engine_current_preset(e)->lattice;
+	lattice_label(&lat->spec, lat->tones[root - 1].seeds, buf, size);
 }
 
 /* Tells the main thread (log line, systemd status) when the tuning moved. */
@@ -247,17 +245,17 @@ static void check_tuning_state(struct input_thread *t)
 	if (t->output_count == 0)
 		return;
 	const struct engine *e = &t->outputs[0].engine;
-	if (e->preset == t->last_preset && e->root_slot == t->last_root)
+	if (engine_preset(e) == t->last_preset && engine_root(e) == t->last_root)
 		return;
-	t->last_preset = e->preset;
-	t->last_root = e->root_slot;
+	t->last_preset = engine_preset(e);
+	t->last_root = engine_root(e);
 	struct reply rep;
 	memset(&rep, 0, sizeof rep);
 	rep.kind = REPLY_TUNING_STATE;
 	rep.ok = true;
 	char label[SNAPSHOT_LABEL_MAX];
 	root_label(e, label, sizeof label);
-	snprintf(rep.text, sizeof rep.text, "preset %s, root %s", current_preset_of(e)->name, label);
+	snprintf(rep.text, sizeof rep.text, "preset %s, root %s", engine_current_preset(e)->name, label);
 	post_reply(t, &rep);
 }
 
@@ -311,7 +309,7 @@ static void shutdown_panic(struct input_thread *t)
 		} else {
 			log_ring_post(&t->log, LOG_LEVEL_ERROR,
 				      "output %s: its synth took nothing for %d ms; %d note(s) could not be ended",
-				      o->name, SHUTDOWN_WAIT_MS, e->note_count + passthrough_held(&e->passthrough));
+				      o->name, SHUTDOWN_WAIT_MS, engine_held_notes(e));
 		}
 	}
 }
@@ -330,14 +328,13 @@ static void swap_tunings(struct input_thread *t, const struct request *r)
 	struct retired_tunings *old = &t->retired[t->retired_count++];
 	old->set = t->tunings;
 	for (int k = 0; k < t->output_count; k++) {
-		old->serial[k] = t->outputs[k].engine.serial;
+		old->serial[k] = engine_serial(&t->outputs[k].engine);
 		engine_replace_tunings(&t->outputs[k].engine, &r->tunings->engine);
 	}
 	t->tunings = r->tunings;
 	t->reloads++;
-	const struct engine *e = &t->outputs[0].engine;
-	reply_done(t, r, true, "%d preset(s), now on preset %s", e->tunings->count,
-		   current_preset_of(e)->name);
+	reply_done(t, r, true, "%d preset(s), now on preset %s", t->tunings->engine.count,
+		   engine_current_preset(&t->outputs[0].engine)->name);
 }
 
 /* Posts back retired sets whose notes have all ended. */
@@ -348,11 +345,9 @@ static void release_retired(struct input_thread *t)
 		bool in_use = false;
 		for (int k = 0; k < t->output_count && !in_use; k++) {
 			const struct engine *e = &t->outputs[k].engine;
-			for (int i = 0; i < ENGINE_MAX_NOTES; i++)
-				if (e->notes[i].phase != NOTE_FREE && e->notes[i].started <= old->serial[k]) {
-					in_use = true;
-					break;
-				}
+			struct engine_note_info n;
+			for (int i = 0; engine_note_at(e, i, &n) && !in_use; i++)
+				in_use = n.started <= old->serial[k];
 		}
 		if (in_use)
 			return;
@@ -367,7 +362,7 @@ static void release_retired(struct input_thread *t)
 
 /* The tunings a note was started under, or NULL if they were freed. */
 static const struct engine_tunings *tunings_of_note(const struct input_thread *t, int output,
-						    const struct engine_note *n)
+						    const struct engine_note_info *n)
 {
 	if (n->started <= t->forgotten_serial[output])
 		return NULL;
@@ -397,12 +392,12 @@ static void fill_snapshot(struct input_thread *t, struct status_snapshot *s)
 		const struct engine *e = &o->engine;
 		struct snapshot_output *so = &s->outputs[k];
 		snprintf(so->name, sizeof so->name, "%s", o->name);
-		so->method = e->spec.output.method;
-		so->preset = e->preset;
-		snprintf(so->preset_name, sizeof so->preset_name, "%s", current_preset_of(e)->name);
-		so->root_slot = e->root_slot;
+		so->method = engine_method(e);
+		so->preset = engine_preset(e);
+		snprintf(so->preset_name, sizeof so->preset_name, "%s", engine_current_preset(e)->name);
+		so->root_slot = engine_root(e);
 		root_label(e, so->root_label, sizeof so->root_label);
-		so->stats = e->stats;
+		so->stats = *engine_stats(e);
 		so->queued = o->queued;
 		so->queue_drops = o->queue_drops;
 		so->sent = atomic_load_explicit(&t->output->sent[k], memory_order_relaxed);
@@ -415,26 +410,24 @@ static void fill_snapshot(struct input_thread *t, struct status_snapshot *s)
 		so->cut_off_dropped = o->guard.cut_off_dropped;
 		so->cut_offs = o->cut_offs;
 		so->cut_off = o->cut_off;
-		so->passthrough_notes = passthrough_held(&e->passthrough);
-		so->notes_held = e->note_count;
-		for (int i = 0; i < ENGINE_MAX_NOTES && so->note_count < SNAPSHOT_NOTES_MAX; i++) {
-			const struct engine_note *n = &e->notes[i];
-			if (n->phase == NOTE_FREE)
-				continue;
+		so->passthrough_notes = engine_passthrough_notes(e);
+		so->notes_held = engine_note_count(e);
+		struct engine_note_info n;
+		while (so->note_count < SNAPSHOT_NOTES_MAX && engine_note_at(e, so->note_count, &n)) {
 			struct snapshot_note *sn = &so->notes[so->note_count++];
-			sn->source = n->source;
-			sn->in_channel = n->in_channel;
-			sn->in_key = n->in_key;
-			sn->out_channel = n->out_channel;
-			sn->out_key = n->out_key;
-			sn->ringing = n->phase == NOTE_RINGING;
-			sn->period = n->period;
-			sn->pitch = n->note;
-			const struct engine_tunings *tun = tunings_of_note(t, k, n);
-			if (tun && n->preset >= 0 && n->preset < tun->count) {
-				const struct engine_preset *p = &tun->presets[n->preset];
-				if (n->tone >= 0 && n->tone < p->lattice->tone_count) {
-					const struct tone *tone = &p->lattice->tones[n->tone];
+			sn->source = n.source;
+			sn->in_channel = n.in_channel;
+			sn->in_key = n.in_key;
+			sn->out_channel = n.out_channel;
+			sn->out_key = n.out_key;
+			sn->ringing = n.ringing;
+			sn->period = n.period;
+			sn->pitch = n.pitch;
+			const struct engine_tunings *tun = tunings_of_note(t, k, &n);
+			if (tun && n.preset >= 0 && n.preset < tun->count) {
+				const struct engine_preset *p = &tun->presets[n.preset];
+				if (n.tone >= 0 && n.tone < p->lattice->tone_count) {
+					const struct tone *tone = &p->lattice->tones[n.tone];
 					sn->tuning_known = true;
 					snprintf(sn->preset, sizeof sn->preset, "%s", p->name);
 					lattice_label(&p->lattice->spec, tone->seeds, sn->label, sizeof sn->label);
@@ -471,6 +464,7 @@ static void fill_snapshot(struct input_thread *t, struct status_snapshot *s)
 static bool handle_request(struct input_thread *t, const struct request *r)
 {
 	const struct engine *first = &t->outputs[0].engine;
+	const struct engine_tunings *tunings = &t->tunings->engine;
 	switch (r->kind) {
 	case REQUEST_PANIC: {
 		if (!feed_room_everywhere(t, -1))
@@ -485,24 +479,24 @@ static bool handle_request(struct input_thread *t, const struct request *r)
 		break;
 	}
 	case REQUEST_PRESET: {
-		int p = find_preset(first->tunings, r);
+		int p = find_preset(tunings, r);
 		if (p < 0) {
 			reply_done(t, r, false, "no preset '%s'; there are %d (see latticed status)",
-				   r->name, first->tunings->count);
+				   r->name, tunings->count);
 			break;
 		}
 		if (!feed_room_everywhere(t, COMMAND_SLOTS))
 			return false;
 		for (int k = 0; k < t->output_count; k++)
 			(void)engine_select_preset(&t->outputs[k].engine, p);
-		reply_done(t, r, true, "preset %s (for new notes)", current_preset_of(first)->name);
+		reply_done(t, r, true, "preset %s (for new notes)", engine_current_preset(first)->name);
 		break;
 	}
 	case REQUEST_ROOT: {
-		int tones = current_preset_of(first)->lattice->tone_count;
+		int tones = engine_current_preset(first)->lattice->tone_count;
 		if (r->number < 0 || r->number > tones) {
 			reply_done(t, r, false, "root %d is out of range, expected 0 (home) to %d: preset %s has %d tones",
-				   r->number, tones, current_preset_of(first)->name, tones);
+				   r->number, tones, engine_current_preset(first)->name, tones);
 			break;
 		}
 		if (!feed_room_everywhere(t, COMMAND_SLOTS))
@@ -549,27 +543,27 @@ static void take_requests(struct input_thread *t)
 	}
 }
 
-static const struct {
-	uint32_t flag;
-	const char *text;
-} notice_texts[] = {
-	{NOTICE_BEND_CLAMPED, "a retune plus the player's wheel went past the bend range and was clamped; a larger bend_range avoids it"},
-	{NOTICE_NOTE_DROPPED, "a note found no free channel (or key) and was dropped; more channels, or polyphony = share-then-steal, avoid it"},
-	{NOTICE_NOTE_STOLEN, "more notes than channels: the oldest note was ended to make room"},
-	{NOTICE_PASSTHROUGH_BLOCKED, "a message on a pass-through channel was blocked because this output retunes on that channel"},
-	{NOTICE_NOTES_FULL, "too many notes held at once; new notes were dropped"},
+struct notice_log {
+	struct input_thread *thread;
+	const char *output;
 };
+
+static void log_notice(void *context, const char *line)
+{
+	const struct notice_log *l = context;
+	log_ring_post(&l->thread->log, LOG_LEVEL_WARNING, "output %s: %s (reported once)", l->output,
+		      line);
+}
 
 static void report_notices(struct input_thread *t)
 {
 	for (int k = 0; k < t->output_count; k++) {
+		const struct engine *e = &t->outputs[k].engine;
 		uint32_t fresh = engine_take_notices(&t->outputs[k].engine);
 		if (!fresh)
 			continue;
-		for (size_t i = 0; i < sizeof notice_texts / sizeof notice_texts[0]; i++)
-			if (fresh & notice_texts[i].flag)
-				log_ring_post(&t->log, LOG_LEVEL_WARNING, "output %s: %s (reported once)",
-					      t->outputs[k].name, notice_texts[i].text);
+		struct notice_log l = {t, t->outputs[k].name};
+		notice_text_lines(fresh, engine_stats(e), t->outputs[k].bend_range, true, log_notice, &l);
 		t->wake_main = true;
 	}
 }

@@ -81,6 +81,7 @@ struct input_output {                /* one output, as the input thread sees it 
 	uint8_t index;
 	char name[ENGINE_NAME_MAX];
 	struct engine engine;
+	int bend_range;                  /* its engine's, for notice lines */
 	uint64_t queued, queue_drops;    /* queue_drops: refused by a full ring (never expected) */
 	uint64_t drops_logged;           /* queue_drops when last logged */
 	int64_t drop_logged_ms;

@@ -8,7 +8,6 @@
 
 #include <string.h>
 
-#include "latticed/passthrough.h"
 
 #define CC_SUSTAIN 64
 #define CC_SOSTENUTO 66
@@ -39,7 +38,7 @@ enum guard_class guard_classify(const struct engine *e, const struct midi_msg *m
 {
 	if (!midi_msg_is_channel(m))
 		return m->status == MIDI_RESET ? GUARD_MUST : GUARD_SHED;
-	if (midi_msg_channel(m) == e->spec.control.channel)
+	if (midi_msg_channel(m) == engine_spec_of(e)->control.channel)
 		return GUARD_MUST;
 	switch (midi_msg_type(m)) {
 	case MIDI_NOTE_ON:
@@ -61,14 +60,14 @@ enum guard_class guard_classify(const struct engine *e, const struct midi_msg *m
 
 int guard_end_slots(const struct engine *e)
 {
-	return e->note_count + passthrough_end_size(&e->passthrough) + GUARD_END_CHANNEL_SLOTS;
+	return engine_end_size(e) + GUARD_END_CHANNEL_SLOTS;
 }
 
 int guard_must_slots(const struct engine *e, const struct midi_msg *m)
 {
 	if (!midi_msg_is_channel(m))
 		return guard_end_slots(e) + GUARD_SETUP_SLOTS; /* System Reset: panic, set-up */
-	if (midi_msg_channel(m) == e->spec.control.channel)
+	if (midi_msg_channel(m) == engine_spec_of(e)->control.channel)
 		return COMMAND_SLOTS;
 	if (midi_msg_type(m) != MIDI_CONTROL)
 		return 2; /* a note-off */
@@ -76,7 +75,7 @@ int guard_must_slots(const struct engine *e, const struct midi_msg *m)
 	if (cc == 121)
 		return 3 * CHANNEL_FAN;
 	if (cc >= 120)
-		return e->note_count + 2 * CHANNEL_FAN; /* the channel's notes end */
+		return engine_note_count(e) + 2 * CHANNEL_FAN; /* the channel's notes end */
 	return CHANNEL_FAN;
 }
 
@@ -85,7 +84,7 @@ int guard_must_slots(const struct engine *e, const struct midi_msg *m)
 static int channel_of(const struct engine *e, const struct midi_msg *m)
 {
 	int ch = midi_msg_channel(m);
-	const struct engine_input_spec *in = &e->spec.input;
+	const struct engine_input_spec *in = &engine_spec_of(e)->input;
 	int master = in->mpe_zone == MPE_ZONE_LOWER ? 0 : 15;
 	bool pedal = midi_msg_type(m) == MIDI_CONTROL &&
 		     (m->data[0] == CC_SUSTAIN || m->data[0] == CC_SOSTENUTO);

@@ -55,7 +55,7 @@ void output_thread_init(struct output_thread *t)
 		atomic_init(&t->send_drops[i], 0);
 		atomic_init(&t->refused[i], 0);
 		atomic_init(&t->room_wanted[i], 0);
-		t->wire_status[i] = 0;
+		midi_running_status_reset(&t->wire[i]);
 		t->blocked[i] = false;
 		t->blocked_logged_ms[i] = 0;
 	}
@@ -83,29 +83,16 @@ static void note_refused(struct output_thread *t, int output)
 	wake_fd_signal(t->main_wake_fd);
 }
 
-static bool is_channel_status(uint8_t b)
-{
-	return b >= 0x80 && b < 0xF0;
-}
-
 static bool send_one(struct output_thread *t, int output, const uint8_t *bytes, size_t length)
 {
-	const uint8_t *start = bytes;
-	size_t n = length;
-	bool compress = t->running_status[output] && is_channel_status(bytes[0]) &&
-			bytes[0] == t->wire_status[output];
-	if (compress) {
-		start++;
-		n--;
-	}
+	size_t skip = t->running_status[output] ? midi_running_status_skip(&t->wire[output], bytes) : 0;
+	const uint8_t *start = bytes + skip;
+	size_t n = length - skip;
 	if (!t->backend->send(t->io, output, start, n)) {
-		t->wire_status[output] = 0;
+		midi_running_status_reset(&t->wire[output]);
 		return false;
 	}
-	if (is_channel_status(bytes[0]))
-		t->wire_status[output] = bytes[0];
-	else if (bytes[0] < 0xF8)
-		t->wire_status[output] = 0; /* system common and SysEx cancel it (MIDI 1.0) */
+	midi_running_status_sent(&t->wire[output], bytes[0]);
 	return true;
 }
 
@@ -126,7 +113,7 @@ static int drain_output(struct output_thread *t, int output, bool *more)
 	while (count < BATCH_MESSAGES &&
 	       (length = msg_queue_peek(t->messages, output, &kind, t->buffer, sizeof t->buffer)) > 0) {
 		if (kind == MSG_RECONNECTED) {
-			t->wire_status[output] = 0;
+			midi_running_status_reset(&t->wire[output]);
 		} else if (!send_one(t, output, t->buffer, length)) {
 			if (!t->blocked[output])
 				note_refused(t, output);

@@ -22,9 +22,10 @@
  * logged.  Idle (nothing queued or held back), it sleeps with no timeout:
  * no core spins.
  *
- * Running status (running_status = yes) is applied here, only for the raw
- * backend, whose bytes go to the wire as they are: a channel message whose
- * status byte equals the last one written goes without it.  After a refused
+ * Running status (running_status = yes) is applied here, only for a
+ * backend whose bytes go to the wire as they are (byte_stream, the raw
+ * backend), by the core's rule (midi_running_status): a channel message
+ * whose status byte equals the last one written goes without it.  After a refused
  * message the next attempt always carries its status byte, so a refusal can
  * never leave the receiver reading data bytes under the wrong status.
  */
@@ -36,6 +37,7 @@
 #include <stdbool.h>
 #include <stdint.h>
 
+#include "latticed/midi_encoder.h"
 #include "log_ring.h"
 #include "midi_io.h"
 #include "msg_queue.h"
@@ -65,7 +67,7 @@ struct output_thread {
 
 	/* the thread's own */
 	pthread_t thread;
-	uint8_t wire_status[MIDI_IO_MAX_OUTPUTS];
+	struct midi_running_status wire[MIDI_IO_MAX_OUTPUTS];
 	bool blocked[MIDI_IO_MAX_OUTPUTS];   /* its head message was refused */
 	bool held_back;                  /* the last flush left bytes in the backend */
 	int64_t blocked_logged_ms[MIDI_IO_MAX_OUTPUTS];

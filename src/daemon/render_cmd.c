@@ -13,7 +13,7 @@
  * through), in the track its note-on came from, then pedal-up for every
  * pedal still down, in the track that last moved it; engine_panic only if
  * something still sounds after that (it should not).  A track whose last
- * event lies more than one delta time (VLQ_MAX_VALUE ticks, SMF 1.0) before
+ * event lies more than one delta time (SMF_DELTA_MAX ticks, SMF 1.0) before
  * the end gets its releases as late as a delta reaches instead, reported.
  */
 #include "render_cmd.h"
@@ -24,15 +24,11 @@
 #include <unistd.h>
 
 #include "latticed/midi_msg.h"
-#include "latticed/vlq.h"
+#include "notice_text.h"
 #include "smf_file.h"
 
 #define CC_SUSTAIN 64
 #define CC_SOSTENUTO 66
-#define NO_NOTE (-1)
-#define STRINGIFY(x) #x
-#define TEXT_OF(x) STRINGIFY(x)
-#define ENGINE_MAX_NOTES_TEXT TEXT_OF(ENGINE_MAX_NOTES)
 
 enum out_kind { OUT_INPUT, OUT_MIDI, OUT_SYSEX };
 
@@ -71,6 +67,7 @@ struct render {
 	/* where the engine's messages go now */
 	size_t track;
 	uint32_t tick;
+	uint32_t release_end;             /* the tick hanging notes are released at */
 	/* for releasing what the input left hanging */
 	uint32_t key_track[16][128];
 	uint32_t pedal_track[16];
@@ -238,8 +235,8 @@ static void release_in(struct render *r, size_t track, uint32_t end)
 	if (!t->release_set) {
 		uint32_t last = t->count ? t->events[t->count - 1].tick : 0;
 		t->release_tick = end;
-		if (end > last && end - last > VLQ_MAX_VALUE) {
-			t->release_tick = last + VLQ_MAX_VALUE;
+		if (end > last && end - last > SMF_DELTA_MAX) {
+			t->release_tick = last + SMF_DELTA_MAX;
 			r->report->early_tracks++;
 			if (r->report->early_tick == 0 || t->release_tick < r->report->early_tick)
 				r->report->early_tick = t->release_tick;
@@ -250,49 +247,30 @@ static void release_in(struct render *r, size_t track, uint32_t end)
 	r->tick = t->release_tick;
 }
 
-/* Something still sounds: a retuned note, or a pass-through one. */
-static bool anything_sounds(const struct engine *e)
+/* A key's release goes to the track of its note-on, a pedal's to the
+ * track that last moved it, each at the tick release_in gives that track. */
+static void route_release(void *context, const struct midi_msg *m)
 {
-	return e->note_count > 0 || passthrough_held(&e->passthrough) > 0 ||
-	       passthrough_ringing(&e->passthrough) > 0;
+	struct render *r = context;
+	int ch = midi_msg_channel(m);
+	if (midi_msg_type(m) == MIDI_NOTE_OFF)
+		release_in(r, r->key_track[ch][m->data[0]], r->release_end);
+	else
+		release_in(r, r->pedal_track[ch], r->release_end);
 }
 
 /* Releases what the input left sounding, at `tick`. */
 static void release_hanging(struct render *r, size_t setup_track, uint32_t tick)
 {
 	struct engine *e = r->engine;
-	const struct passthrough *pass = &e->passthrough;
-	if (!anything_sounds(e))
+	if (!engine_sounds(e))
 		return;
 	r->report->hanging_tick = tick > r->report->hanging_tick ? tick : r->report->hanging_tick;
-	/* released notes a pedal holds; counted before the keys join them */
-	for (int i = 0; i < ENGINE_MAX_NOTES; i++)
-		r->report->hanging_pedal_notes += e->notes[i].phase == NOTE_RINGING;
-	r->report->hanging_pedal_notes += (size_t)passthrough_ringing(pass);
-	for (int ch = 0; ch < 16; ch++) {
-		for (int key = 0; key < 128; key++) {
-			if (e->key_down[0][ch][key] == NO_NOTE && !passthrough_holds(pass, 0, ch, key))
-				continue;
-			release_in(r, r->key_track[ch][key], tick);
-			struct midi_msg off = midi_msg_note_off((uint8_t)ch, (uint8_t)key,
-								MIDI_DEFAULT_VELOCITY);
-			engine_handle(e, 0, &off);
-			r->report->hanging_keys++;
-		}
-	}
-	for (int ch = 0; ch < 16 && anything_sounds(e); ch++) {
-		release_in(r, r->pedal_track[ch], tick);
-		bool passed = passthrough_ringing(pass) > 0;
-		if (e->in[ch].sustain || (passed && passthrough_pedal_down(pass, ch, CC_SUSTAIN))) {
-			struct midi_msg up = midi_msg_control((uint8_t)ch, CC_SUSTAIN, 0);
-			engine_handle(e, 0, &up);
-		}
-		if (e->in[ch].sostenuto || (passed && passthrough_pedal_down(pass, ch, CC_SOSTENUTO))) {
-			struct midi_msg up = midi_msg_control((uint8_t)ch, CC_SOSTENUTO, 0);
-			engine_handle(e, 0, &up);
-		}
-	}
-	if (anything_sounds(e)) {
+	r->release_end = tick;
+	struct engine_release released = engine_release_held(e, route_release, r);
+	r->report->hanging_keys += (size_t)released.keys;
+	r->report->hanging_pedal_notes += (size_t)released.pedal_notes;
+	if (engine_sounds(e)) {
 		release_in(r, setup_track, tick);
 		engine_panic(e);
 	}
@@ -365,7 +343,7 @@ static bool perform(struct render *r, const struct engine_spec *spec,
 	release_hanging(r, setup_track, end_tick);
 
 	struct engine_stats *sum = &r->report->engine;
-	const struct engine_stats *s = &r->engine->stats;
+	const struct engine_stats *s = engine_stats(r->engine);
 	sum->notes_on += s->notes_on;
 	sum->notes_shared += s->notes_shared;
 	sum->notes_stolen += s->notes_stolen;
@@ -473,9 +451,9 @@ static const char *display_name(const char *path, const char *stdio_name)
 	return smf_file_is_stdio(path) ? stdio_name : path;
 }
 
-static const char *plural(size_t n, const char *one, const char *many)
+static void print_notice(void *context, const char *line)
 {
-	return n == 1 ? one : many;
+	fprintf(stderr, "latticed render: %s: warning: %s\n", (const char *)context, line);
 }
 
 static void print_warnings(const char *in_name, const struct smf *in,
@@ -500,33 +478,14 @@ static void print_warnings(const char *in_name, const struct smf *in,
 		fprintf(stderr,
 			"latticed render: %s: warning: hanging notes released from tick %u instead of %u in %zu track%s: the end lies more than %u ticks (the longest delta time, SMF 1.0) after the track's last event\n",
 			in_name, rep->early_tick, rep->hanging_tick, rep->early_tracks,
-			plural(rep->early_tracks, "", "s"), VLQ_MAX_VALUE);
+			rep->early_tracks == 1 ? "" : "s", SMF_DELTA_MAX);
 	if (rep->zero_tempos)
 		fprintf(stderr,
 			"latticed render: %s: warning: byte %zu: tempo 0 microseconds per quarter note, which no player can keep (expected 1 to 16777215); copied unchanged%s\n",
 			in_name, rep->zero_tempo_offset,
 			rep->zero_tempos > 1 ? ", as are the other tempo 0 events" : "");
-	const struct engine_stats *s = &rep->engine;
-	uint32_t n = rep->notices;
-	if (n & NOTICE_BEND_CLAMPED)
-		fprintf(stderr,
-			"latticed render: %s: warning: %u %s clamped: retune plus wheel went beyond the bend range of %d semitones\n",
-			in_name, s->bends_clamped, plural(s->bends_clamped, "bend", "bends"),
-			spec->output.bend_range);
-	if (n & NOTICE_NOTE_STOLEN)
-		fprintf(stderr,
-			"latticed render: %s: warning: %u %s stolen: more notes at once than the output has channels\n",
-			in_name, s->notes_stolen, plural(s->notes_stolen, "note", "notes"));
-	if (n & (NOTICE_NOTE_DROPPED | NOTICE_NOTES_FULL))
-		fprintf(stderr,
-			"latticed render: %s: warning: %u %s dropped: no channel or key was free%s\n",
-			in_name, s->notes_dropped, plural(s->notes_dropped, "note", "notes"),
-			(n & NOTICE_NOTES_FULL) ? " (more than " ENGINE_MAX_NOTES_TEXT " notes at once)" : "");
-	if (n & NOTICE_PASSTHROUGH_BLOCKED)
-		fprintf(stderr,
-			"latticed render: %s: warning: %u %s dropped: on channels not retuned but used by the output\n",
-			in_name, s->passthrough_blocked,
-			plural(s->passthrough_blocked, "message", "messages"));
+	notice_text_lines(rep->notices, &rep->engine, spec->output.bend_range, false, print_notice,
+			  (void *)in_name);
 }
 
 static void print_summary(const char *in_name, const char *out_name,

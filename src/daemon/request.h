@@ -40,7 +40,6 @@ enum reply_kind {
 	REPLY_SNAPSHOT,           /* `snapshot` is filled */
 	REPLY_RETIRED_TUNINGS,    /* `tunings` is no longer used: free it */
 	REPLY_TUNING_STATE,       /* preset or root changed (from MIDI too) */
-	REPLY_QUIT_DONE,          /* the input thread has stopped */
 };
 
 #define REPLY_TEXT_MAX 160

@@ -29,7 +29,7 @@ static char *key_name(int key, char *buf, size_t size)
 
 static bool output_uses_bend(const struct output_config *o)
 {
-	return o->method == RETUNE_BEND || o->method == RETUNE_MPE;
+	return retune_method_bends_notes(o->method);
 }
 
 /* Each output's view of the key map (its cents offset applied), built once

@@ -50,6 +50,7 @@
 
 #include <alsa/asoundlib.h>
 
+#include "alsa_quiet.h"
 #include "midi_io.h"
 #include "seq_event_bytes.h"
 #include "source_ids.h"
@@ -136,21 +137,9 @@ static void report(struct midi_io *io, enum midi_io_event kind, int index, const
 
 /* ---- open errors ------------------------------------------------------ */
 
-/* alsa-lib prints its own line for every failure (e.g. "ALSA lib
- * seq_hw.c:466:(snd_seq_hw_open) open /dev/snd/seq failed"); we say it
- * once, with the fix, instead. */
-static void alsa_lib_quiet(const char *file, int line, const char *function, int err, const char *fmt, ...)
-{
-	(void)file;
-	(void)line;
-	(void)function;
-	(void)err;
-	(void)fmt;
-}
-
 static int seq_open(snd_seq_t **seq)
 {
-	snd_lib_error_set_handler(alsa_lib_quiet);
+	alsa_quiet_lib_errors();
 	return snd_seq_open(seq, "default", SND_SEQ_OPEN_DUPLEX, SND_SEQ_NONBLOCK);
 }
 

@@ -48,10 +48,10 @@
 #include <unistd.h>
 
 #include <portmidi.h>
-#ifdef LATTICED_HAVE_ALSA
-#include <alsa/asoundlib.h>
-#endif
 
+#ifdef LATTICED_HAVE_ALSA
+#include "alsa_quiet.h"
+#endif
 #include "midi_io.h"
 #include "pm_bytes.h"
 #include "source_ids.h"
@@ -124,23 +124,10 @@ static PmTimestamp time_proc(void *info)
 	return (PmTimestamp)now_ms();
 }
 
-#ifdef LATTICED_HAVE_ALSA
-/* PortMidi on Linux goes through alsa-lib, which prints a line of its own
- * for each failure; our messages say the same with the fix. */
-static void alsa_lib_quiet(const char *file, int line, const char *function, int err, const char *fmt, ...)
-{
-	(void)file;
-	(void)line;
-	(void)function;
-	(void)err;
-	(void)fmt;
-}
-#endif
-
 static PmError initialize(void)
 {
 #ifdef LATTICED_HAVE_ALSA
-	snd_lib_error_set_handler(alsa_lib_quiet);
+	alsa_quiet_lib_errors(); /* PortMidi on Linux goes through alsa-lib */
 #endif
 	return Pm_Initialize();
 }

@@ -523,6 +523,7 @@ static void raw_close(struct midi_io *io)
 
 const struct midi_io_backend midi_io_raw = {
 	.name = "raw",
+	.byte_stream = true,
 	.open = raw_open,
 	.input_fds = raw_input_fds,
 	.service_input = raw_service_input,

@@ -1,5 +1,5 @@
 /*
- * io_probe: drives a MIDI backend through src/io/midi_io.h alone, the way
+ * io_probe: drives a MIDI backend through src/io/include/midi_io.h alone, the way
  * the daemon does (an input thread that polls and services the input, an
  * output thread that sends and flushes), so the VM tests can check the
  * backends without the rest of latticed.

@@ -1,5 +1,5 @@
 #!/bin/sh
-# vm_backends: the ALSA and PortMidi backends through src/io/midi_io.h,
+# vm_backends: the ALSA and PortMidi backends through src/io/include/midi_io.h,
 # driven by io_probe (input thread + output thread, every message sent on
 # unchanged) between seqtool players and recorders.
 . ./vmlib.sh

@@ -90,6 +90,10 @@ typedef void (*midi_io_line_fn)(void *context, const char *line);
 
 struct midi_io_backend {
 	const char *name;
+	/* send() writes the bytes themselves to a wire or a file (raw), so
+	 * leaving out repeated status bytes (running status) saves time on a
+	 * slow link; other backends take whole events. */
+	bool byte_stream;
 	struct midi_io *(*open)(const struct midi_io_spec *spec,
 				const struct midi_io_callbacks *callbacks,
 				char *err, size_t err_size);

@@ -6,9 +6,10 @@
  * (CC101 = 127, CC100 = 127) so stray data-entry messages change nothing.
  * CC38 is never sent: many receivers ignore it and FluidSynth 2.3 adds it
  * as cents, so whole-semitone values are the portable choice.
+ * Private to the core (the engine sends them).
  */
-#ifndef LATTICED_RPN_H
-#define LATTICED_RPN_H
+#ifndef LATTICED_CORE_RPN_H
+#define LATTICED_CORE_RPN_H
 
 #include <stdint.h>
 

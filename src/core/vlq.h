@@ -3,10 +3,10 @@
  *
  * Seven payload bits per byte, most significant group first, bit 7 set on
  * every byte but the last; at most four bytes, so the largest value is
- * 0x0FFFFFFF (SMF 1.0).
+ * 0x0FFFFFFF (SMF 1.0).  Private to the core (the SMF reader and writer).
  */
-#ifndef LATTICED_VLQ_H
-#define LATTICED_VLQ_H
+#ifndef LATTICED_CORE_VLQ_H
+#define LATTICED_CORE_VLQ_H
 
 #include <stddef.h>
 #include <stdint.h>

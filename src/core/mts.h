@@ -10,9 +10,10 @@
  * the XOR of every byte from 7E to the last data byte, masked to 7 bits:
  * sources disagree on the exact span, this one is the recommended choice,
  * and receivers are advised not to reject on a mismatch.
+ * Private to the core (the engine sends them).
  */
-#ifndef LATTICED_MTS_H
-#define LATTICED_MTS_H
+#ifndef LATTICED_CORE_MTS_H
+#define LATTICED_CORE_MTS_H
 
 #include <stdbool.h>
 #include <stddef.h>
