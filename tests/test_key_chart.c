@@ -50,7 +50,7 @@ static void build_chart(enum key_layout layout, int root_key, int periods)
 	struct core_error err;
 	if (!keymap_build(&map, &lat, &spec, &err))
 		fail_msg("%s", err.text);
-	if (!key_chart_build(&chart, &lat, &map, &spec, periods, &err))
+	if (!key_chart_build(&chart, &lat, &map, periods, &err))
 		fail_msg("%s", err.text);
 }
 
@@ -174,7 +174,7 @@ static void table_with_silent_slots(void **state)
 		spec.table[2 * t].tone = (int16_t)t;
 	struct core_error err;
 	assert_true(keymap_build(&map, &lat, &spec, &err));
-	assert_true(key_chart_build(&chart, &lat, &map, &spec, 1, &err));
+	assert_true(key_chart_build(&chart, &lat, &map, 1, &err));
 	assert_int_equal(chart.period_keys, 12);
 	assert_int_equal(chart.key_count, 12);
 	assert_int_equal(key_chart_tone_key_count(&chart, 5), 0);
@@ -210,9 +210,9 @@ static void bad_period_count(void **state)
 	spec.root_hz = 220.0;
 	struct core_error err;
 	assert_true(keymap_build(&map, &lat, &spec, &err));
-	assert_false(key_chart_build(&chart, &lat, &map, &spec, 0, &err));
+	assert_false(key_chart_build(&chart, &lat, &map, 0, &err));
 	assert_string_equal(err.field, "periods");
-	assert_false(key_chart_build(&chart, &lat, &map, &spec, KEY_CHART_MAX_PERIODS + 1, &err));
+	assert_false(key_chart_build(&chart, &lat, &map, KEY_CHART_MAX_PERIODS + 1, &err));
 }
 
 int main(void)

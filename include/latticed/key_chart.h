@@ -57,11 +57,11 @@ int key_chart_period_keys(const struct lattice *lat, const struct keymap_spec *s
 
 /*
  * Builds the chart of `periods` keyboard periods (1..KEY_CHART_MAX_PERIODS)
- * of a built key map.  Fails only on a bad period count.
+ * of a built key map (its layout read from map->spec).  Fails only on a
+ * bad period count.
  */
 bool key_chart_build(struct key_chart *out, const struct lattice *lat,
-		     const struct keymap *map, const struct keymap_spec *spec,
-		     int periods, struct core_error *err);
+		     const struct keymap *map, int periods, struct core_error *err);
 
 /* True when key plays tone within the chart's stretch. */
 bool key_chart_tone_on_key(const struct key_chart *chart, int tone, int key);

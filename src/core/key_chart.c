@@ -118,9 +118,9 @@ static void chart_chord(struct key_chart *chart, const struct keymap *map,
 }
 
 bool key_chart_build(struct key_chart *out, const struct lattice *lat,
-		     const struct keymap *map, const struct keymap_spec *spec,
-		     int periods, struct core_error *err)
+		     const struct keymap *map, int periods, struct core_error *err)
 {
+	const struct keymap_spec *spec = &map->spec;
 	if (periods < 1 || periods > KEY_CHART_MAX_PERIODS)
 		return core_fail(err, "periods", "%d keyboard periods asked for, expected 1 to %d",
 				 periods, KEY_CHART_MAX_PERIODS);

@@ -183,9 +183,9 @@ static void write_key(FILE *f, const struct chart_view *v, int key, double x, do
 	if (kp->state == KEY_SOUNDING) {
 		fprintf(f, " data-tone=\"%d\" data-period=\"%d\" data-seeds=\"", kp->tone, kp->period);
 		svg_escaped(f, kt.line[1]);
+		svg_num(c, kp->cents_off, 3);
 		fprintf(f, "\" data-ratio=\"%s\" data-nearest=\"%s\" data-cents=\"%s%s\"", kt.line[2],
-			note_name(kp->out_key, name, sizeof name), kp->cents_off >= 0 ? "+" : "",
-			svg_num(c, kp->cents_off, 3));
+			note_name(kp->out_key, name, sizeof name), c[0] == '-' ? "" : "+", c);
 	}
 	fprintf(f, "><rect x=\"%s\" y=\"%s\" width=\"%s\" height=\"%s\" rx=\"4\"/>",
 		svg_num(a, x, 1), svg_num(b, y, 1), svg_num(c, w, 1), svg_num(d, h, 1));
@@ -357,7 +357,7 @@ static void write_headings(FILE *f, const struct chart_view *v, const struct con
 			   int preset)
 {
 	const struct key_chart *chart = v->chart;
-	const struct keymap_spec *keys = &cfg->presets[preset].keys;
+	const struct keymap_spec *keys = &v->map->spec;
 	char text[512], lo[NOTE_NAME_MAX], hi[NOTE_NAME_MAX], hz[SVG_NUM_MAX];
 	int last = chart->first_key + chart->key_count - 1;
 	draw_heading(text, sizeof text, v->lat);
@@ -391,8 +391,7 @@ int draw_keys_svg(FILE *f, const struct config *cfg, int preset, const struct tu
 	if (!chart)
 		return -1;
 	struct core_error err;
-	if (!key_chart_build(chart, &t->lattice, &t->keymap, &cfg->presets[preset].keys, periods,
-			     &err)) {
+	if (!key_chart_build(chart, &t->lattice, &t->keymap, periods, &err)) {
 		free(chart);
 		return -1;
 	}
