@@ -256,7 +256,10 @@ def check_rendering(svg, name):
         return
     png = os.path.join(WORK, name + ".png")
     p = subprocess.run(["rsvg-convert", "-o", png], input=svg, capture_output=True)
-    check(p.returncode == 0 and p.stderr == b"", f"{name}: rsvg-convert: {p.stderr!r}")
+    # complaints about the SVG fail; a machine's font set-up is not ours
+    complaints = [ln for ln in p.stderr.decode(errors="replace").splitlines()
+                  if ln.strip() and "fontconfig" not in ln.lower()]
+    check(p.returncode == 0 and not complaints, f"{name}: rsvg-convert: {p.stderr!r}")
     with open(png, "rb") as f:
         check(f.read(8) == b"\x89PNG\r\n\x1a\n", f"{name}: no PNG")
 
