@@ -72,6 +72,7 @@ struct keymap {
 	struct key_pitch keys[KEYMAP_KEYS];
 	int sounding_count;
 	int out_of_range_count;
+	struct keymap_spec spec;  /* what it was built from, table slots resolved */
 };
 
 const char *key_layout_name(enum key_layout layout);

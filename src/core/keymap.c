@@ -148,6 +148,7 @@ bool keymap_build(struct keymap *out, const struct lattice *lat,
 		map.keys[key].state = KEY_SILENT;
 		map.keys[key].tone = -1;
 	}
+	map.spec = *spec;
 	double root_note = pitch_note_of_hz(spec->root_hz);
 
 	if (spec->layout == KEY_LAYOUT_NEAREST) {

@@ -16,6 +16,7 @@
 #include "render_cmd.h"
 #include "control_cmd.h"
 #include "daemon.h"
+#include "draw_cmd.h"
 #include "midi_io.h"
 #include "table_cmd.h"
 
@@ -138,6 +139,118 @@ static int command_table(int argc, char **argv)
 			perror("latticed: writing the table");
 			rc = 1;
 		}
+	}
+	free(t);
+	free(cfg);
+	return rc;
+}
+
+static void draw_usage(FILE *f)
+{
+	fprintf(f,
+		"Usage: latticed draw [--config FILE] [--preset NAME|N] [--what lattice|keys]\n"
+		"                     [--periods 1|2] [-o FILE]\n"
+		"Draw the lattice (tones, edges, chords) or a keyboard chart as an SVG file.\n"
+		"\n"
+		"  -c, --config FILE     read FILE instead of %s\n"
+		"  -p, --preset NAME|N   draw preset NAME, or number N (0 is the main tuning)\n"
+		"  -w, --what WHAT       lattice (default): every tone, edge and chord;\n"
+		"                        keys: what each key plays and the keys of every chord\n"
+		"  -n, --periods N       keys: show 1 or 2 keyboard periods (default 2)\n"
+		"  -o, --out FILE        write FILE (replaced whole) instead of standard output\n"
+		"  -h, --help            show this help\n",
+		default_config_path);
+}
+
+/* Values of --what and --periods; false after saying what was expected. */
+static bool parse_draw_option(int opt, const char *arg, struct draw_request *req)
+{
+	if (opt == 'w') {
+		if (strcmp(arg, "lattice") == 0 || strcmp(arg, "keys") == 0) {
+			req->what = strcmp(arg, "keys") == 0 ? DRAW_KEYS : DRAW_LATTICE;
+			return true;
+		}
+		fprintf(stderr, "latticed draw: --what is '%s', expected lattice or keys\n", arg);
+		return false;
+	}
+	if (strcmp(arg, "1") == 0 || strcmp(arg, "2") == 0) {
+		req->periods = arg[0] - '0';
+		return true;
+	}
+	fprintf(stderr, "latticed draw: --periods is '%s', expected 1 or 2\n", arg);
+	return false;
+}
+
+static int command_draw(int argc, char **argv)
+{
+	static const struct option options[] = {
+		{"config", required_argument, NULL, 'c'},
+		{"preset", required_argument, NULL, 'p'},
+		{"what", required_argument, NULL, 'w'},
+		{"periods", required_argument, NULL, 'n'},
+		{"out", required_argument, NULL, 'o'},
+		{"help", no_argument, NULL, 'h'},
+		{NULL, 0, NULL, 0},
+	};
+	const char *config_path = NULL, *preset_name = NULL;
+	struct draw_request req = {.what = DRAW_LATTICE, .periods = 2};
+	bool periods_given = false;
+	int opt;
+	while ((opt = getopt_long(argc, argv, "c:p:w:n:o:h", options, NULL)) != -1) {
+		switch (opt) {
+		case 'c':
+			config_path = optarg;
+			break;
+		case 'p':
+			preset_name = optarg;
+			break;
+		case 'o':
+			req.out_path = optarg;
+			break;
+		case 'n':
+			periods_given = true;
+			/* fall through */
+		case 'w':
+			if (!parse_draw_option(opt, optarg, &req))
+				return EXIT_USAGE;
+			break;
+		case 'h':
+			draw_usage(stdout);
+			return 0;
+		default:
+			fprintf(stderr, "Try 'latticed draw --help'.\n");
+			return EXIT_USAGE;
+		}
+	}
+	if (optind < argc) {
+		fprintf(stderr, "latticed draw: unexpected argument '%s'\nTry 'latticed draw --help'.\n",
+			argv[optind]);
+		return EXIT_USAGE;
+	}
+	if (periods_given && req.what != DRAW_KEYS) {
+		fprintf(stderr, "latticed draw: --periods is for --what keys, expected no --periods"
+			" with the lattice\n");
+		return EXIT_USAGE;
+	}
+
+	struct config *cfg = malloc(sizeof *cfg);
+	struct tuning *t = NULL;
+	int rc = cfg ? load_config(config_path, cfg) : 1;
+	if (rc == 0 && preset_name) {
+		req.preset = draw_find_preset(cfg, preset_name);
+		if (req.preset < 0) {
+			fprintf(stderr, "latticed draw: %s has no preset '%s', expected a preset name"
+				" or a number from 0 to %d\n", cfg->path, preset_name,
+				cfg->preset_count - 1);
+			rc = 1;
+		}
+	}
+	if (rc == 0)
+		rc = build_tuning(cfg, req.preset, &t);
+	if (rc == 0) {
+		req.cfg = cfg;
+		req.tuning = t;
+		rc = draw_run(&req);
 	}
 	free(t);
 	free(cfg);
@@ -353,6 +466,7 @@ static const struct command commands[] = {
 	{"ports", command_ports, "list the MIDI ports latticed can connect to"},
 	{"table", command_table, "print the lattice, its chords and the key map"},
 	{"render", command_render, "retune a MIDI file"},
+	{"draw", command_draw, "draw the lattice or a keyboard chart as SVG"},
 };
 #define COMMAND_COUNT ((int)(sizeof commands / sizeof commands[0]))
 
