@@ -20,6 +20,7 @@
 #include <string.h>
 #include <time.h>
 
+#include "clock.h"
 #include "latticed/midi_encoder.h"
 #include "output_thread.h"
 #include "snapshot.h"

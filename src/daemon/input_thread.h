@@ -38,6 +38,7 @@
 #include "msg_queue.h"
 #include "request.h"
 #include "spsc_queue.h"
+#include "tuning.h"
 
 #define INPUT_RETIRED_MAX 4
 #define INPUT_OUTBOX_MAX 32

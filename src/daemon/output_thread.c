@@ -13,17 +13,12 @@
 #include <time.h>
 #include <unistd.h>
 
+#include "clock.h"
+
 #define STOP_RETRY_MS 2000
 #define IDLE_FLUSH_MS 10
 #define IDLE_FLUSHES 5
 #define DROP_LOG_INTERVAL_MS 1000
-
-int64_t monotonic_ms(void)
-{
-	struct timespec ts;
-	clock_gettime(CLOCK_MONOTONIC, &ts);
-	return (int64_t)ts.tv_sec * 1000 + ts.tv_nsec / 1000000;
-}
 
 void wake_fd_signal(int fd)
 {

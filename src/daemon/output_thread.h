@@ -62,9 +62,6 @@ void *output_thread_run(void *arg);
 /* Main thread: drain what is queued, then return from output_thread_run. */
 void output_thread_stop(struct output_thread *t);
 
-/* Milliseconds on CLOCK_MONOTONIC (for rate-limited log lines). */
-int64_t monotonic_ms(void);
-
 /* Adds one to an eventfd (a wake-up); never blocks. */
 void wake_fd_signal(int fd);
 /* Resets an eventfd after a wake-up. */

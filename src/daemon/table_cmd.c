@@ -29,7 +29,7 @@ static char *key_name(int key, char *buf, size_t size)
 
 static bool output_uses_bend(const struct output_config *o)
 {
-	return o->method == RETUNE_BEND || o->method == RETUNE_MPE;
+	return o->engine.method == RETUNE_BEND || o->engine.method == RETUNE_MPE;
 }
 
 /* Each output's view of the key map (its cents offset applied), built once
@@ -39,7 +39,7 @@ static struct retune_table output_tables[CONFIG_MAX_OUTPUTS]; /* single-threaded
 static void build_output_tables(const struct config *cfg, const struct keymap *map)
 {
 	for (int o = 0; o < cfg->output_count; o++)
-		retune_table_build(&output_tables[o], map, cfg->outputs[o].cents_offset);
+		retune_table_build(&output_tables[o], map, cfg->outputs[o].engine.cents_offset);
 }
 
 /* The bend output number o sends for a key: its own offset, range and factor. */
@@ -47,7 +47,7 @@ static struct bend output_bend(const struct config *cfg, int o, int key)
 {
 	const struct output_config *out = &cfg->outputs[o];
 	const struct retune_key *rk = &output_tables[o].keys[key];
-	return pitch_bend_for_cents(rk->cents, output_bend_range(out), out->bend_factor);
+	return pitch_bend_for_cents(rk->cents, out->engine.bend_range, out->engine.bend_played);
 }
 
 static void print_seeds(FILE *f, const struct lattice_spec *spec)
@@ -168,16 +168,16 @@ void table_print_text(FILE *f, const struct config *cfg, int preset, const struc
 		const struct output_config *out = &cfg->outputs[o];
 		char chans[64];
 		fprintf(f, "output   %s: %s on channels %s", out->name,
-			retune_method_name(out->method),
-			config_format_channels(out->channels, chans, sizeof chans));
+			retune_method_name(out->engine.method),
+			config_format_channels(out->engine.channels, chans, sizeof chans));
 		if (output_uses_bend(out))
-			fprintf(f, ", bend range +-%d semitones", output_bend_range(out));
-		if (out->method == RETUNE_MTS)
-			fprintf(f, ", tuning program %d", out->mts_program);
-		if (out->bend_factor != 1.0)
-			fprintf(f, ", synth plays %.7g of a bend", out->bend_factor);
-		if (out->cents_offset != 0.0)
-			fprintf(f, ", %+g cents", out->cents_offset);
+			fprintf(f, ", bend range +-%d semitones", out->engine.bend_range);
+		if (out->engine.method == RETUNE_MTS)
+			fprintf(f, ", tuning program %d", out->engine.mts_program);
+		if (out->engine.bend_played != 1.0)
+			fprintf(f, ", synth plays %.7g of a bend", out->engine.bend_played);
+		if (out->engine.cents_offset != 0.0)
+			fprintf(f, ", %+g cents", out->engine.cents_offset);
 		fputc('\n', f);
 	}
 
@@ -309,15 +309,15 @@ int table_print_json(FILE *f, const struct config *cfg, int preset, const struct
 		const struct output_config *out = &cfg->outputs[o];
 		struct json_object *jo = json_object_new_object();
 		json_object_object_add(jo, "name", json_object_new_string(out->name));
-		json_object_object_add(jo, "method", json_object_new_string(retune_method_name(out->method)));
+		json_object_object_add(jo, "method", json_object_new_string(retune_method_name(out->engine.method)));
 		struct json_object *chans = json_object_new_array();
 		for (int ch = 0; ch < 16; ch++)
-			if (out->channels & (1u << ch))
+			if (out->engine.channels & (1u << ch))
 				json_object_array_add(chans, json_object_new_int(ch + 1));
 		json_object_object_add(jo, "channels", chans);
-		json_object_object_add(jo, "bend_range", json_object_new_int(output_bend_range(out)));
-		json_object_object_add(jo, "bend_factor", fixed(out->bend_factor, 9));
-		json_object_object_add(jo, "cents_offset", fixed(out->cents_offset, 6));
+		json_object_object_add(jo, "bend_range", json_object_new_int(out->engine.bend_range));
+		json_object_object_add(jo, "bend_factor", fixed(out->engine.bend_played, 9));
+		json_object_object_add(jo, "cents_offset", fixed(out->engine.cents_offset, 6));
 		json_object_array_add(outputs, jo);
 	}
 	json_object_object_add(root, "outputs", outputs);
