@@ -317,6 +317,28 @@ static bool period_fail(const struct lattice_spec *spec, uint16_t mask, struct c
 			 ratio_format(spec->period, period, sizeof period));
 }
 
+/* The product of mask over the unison, reduced into one period. */
+static bool tone_ratio(const struct lattice_spec *spec, uint16_t mask, struct ratio unison,
+		       struct ratio *out, struct core_error *err)
+{
+	char label[LATTICE_LABEL_MAX];
+	bool in_period = false;
+	struct ratio r;
+	bool ok = product_of(spec, mask, &r, &in_period) && ratio_div(r, unison, &r);
+	if (ok && !ratio_reduce_into(r, spec->period, &r, NULL)) {
+		ok = false;
+		in_period = true;
+	}
+	if (!ok && in_period)
+		return period_fail(spec, mask, err);
+	if (!ok)
+		return core_fail(err, "seeds",
+				 "the product %s overflows 64-bit exact arithmetic; use smaller seeds",
+				 lattice_label(spec, mask, label, sizeof label));
+	*out = r;
+	return true;
+}
+
 bool lattice_build(struct lattice *out, const struct lattice_spec *spec,
 		   struct core_error *err)
 {
@@ -338,24 +360,10 @@ bool lattice_build(struct lattice *out, const struct lattice_spec *spec,
 	int count = 0;
 	struct subset_walk walk;
 	subset_walk_init(&walk, n, k);
-	for (int mask; (mask = subset_walk_next(&walk)) >= 0;) {
-		struct ratio r;
-		char label[LATTICE_LABEL_MAX];
-		bool in_period = false;
-		bool ok = product_of(spec, (uint16_t)mask, &r, &in_period) && ratio_div(r, unison, &r);
-		if (ok && !ratio_reduce_into(r, spec->period, &r, NULL)) {
-			ok = false;
-			in_period = true;
-		}
-		if (!ok && in_period)
-			return period_fail(spec, (uint16_t)mask, err);
-		if (!ok)
-			return core_fail(err, "seeds",
-					 "the product %s overflows 64-bit exact arithmetic; use smaller seeds",
-					 lattice_label(spec, (uint16_t)mask, label, sizeof label));
-		products[count].ratio = r;
+	for (int mask; (mask = subset_walk_next(&walk)) >= 0; count++) {
 		products[count].seeds = (uint16_t)mask;
-		count++;
+		if (!tone_ratio(spec, (uint16_t)mask, unison, &products[count].ratio, err))
+			return false;
 	}
 	sort_products(products, count);
 

@@ -271,8 +271,16 @@ static int socket_candidates(const char *config_path, const char *default_config
 	return count;
 }
 
-static int run_client(const struct control_command *c, int argc, char **argv,
-		      const char *default_config)
+/* What the command line asked for. */
+struct client_options {
+	const char *socket_path, *config_path;
+	bool json;
+	char request[CONFIG_PATH_MAX];
+};
+
+/* Reads the options and the argument into o; -1 to go on, else the exit status. */
+static int read_options(const struct control_command *c, int argc, char **argv,
+			const char *default_config, struct client_options *o)
 {
 	static const struct option options[] = {
 		{"socket", required_argument, NULL, 's'},
@@ -281,24 +289,22 @@ static int run_client(const struct control_command *c, int argc, char **argv,
 		{"help", no_argument, NULL, 'h'},
 		{NULL, 0, NULL, 0},
 	};
-	const char *socket_path = NULL, *config_path = NULL;
-	bool json = false;
 	bool is_status = c->kind == CONTROL_STATUS;
 	int opt;
 	while ((opt = getopt_long(argc, argv, is_status ? "s:c:jh" : "s:c:h", options, NULL)) != -1) {
 		switch (opt) {
 		case 's':
-			socket_path = optarg;
+			o->socket_path = optarg;
 			break;
 		case 'c':
-			config_path = optarg;
+			o->config_path = optarg;
 			break;
 		case 'j':
 			if (!is_status) {
 				fprintf(stderr, "latticed %s: --json is for status only\n", c->name);
 				return EXIT_USAGE;
 			}
-			json = true;
+			o->json = true;
 			break;
 		case 'h':
 			usage(stdout, c, default_config);
@@ -317,40 +323,28 @@ static int run_client(const struct control_command *c, int argc, char **argv,
 		fprintf(stderr, "Try 'latticed %s --help'.\n", c->name);
 		return EXIT_USAGE;
 	}
-	char request[CONFIG_PATH_MAX];
-	if (wanted) {
-		const char *arg = argv[optind];
-		if (strchr(arg, '\n') || strlen(arg) > 200) {
-			fprintf(stderr, "latticed %s: '%s' is not a usable %s\n", c->name, arg, c->arg);
-			return EXIT_USAGE;
-		}
-		snprintf(request, sizeof request, "%s %s", c->name, arg);
-	} else {
-		snprintf(request, sizeof request, "%s", c->name);
+	if (!wanted) {
+		snprintf(o->request, sizeof o->request, "%s", c->name);
+		return -1;
 	}
+	const char *arg = argv[optind];
+	if (strchr(arg, '\n') || strlen(arg) > 200) {
+		fprintf(stderr, "latticed %s: '%s' is not a usable %s\n", c->name, arg, c->arg);
+		return EXIT_USAGE;
+	}
+	snprintf(o->request, sizeof o->request, "%s %s", c->name, arg);
+	return -1;
+}
 
-	char paths[CONTROL_PATH_CANDIDATES][CONTROL_PATH_MAX];
-	int count;
-	if (socket_path) {
-		snprintf(paths[0], CONTROL_PATH_MAX, "%s", socket_path);
-		count = 1;
-	} else if ((count = socket_candidates(config_path, default_config, paths)) == 0) {
-		return 1;
-	}
-	const char *used = paths[0];
-	int fd = connect_daemon(paths, count, &used);
-	if (fd < 0)
-		return 1;
-	char *answer = exchange(fd, request, c->timeout_ms, used);
-	close(fd);
-	if (!answer)
-		return 1;
+/* Prints the daemon's answer; returns the exit status. */
+static int print_reply(const struct control_command *c, const struct client_options *o,
+		       const char *answer, const char *used)
+{
 	struct json_object *reply = json_tokener_parse(answer);
 	if (!reply || !json_object_is_type(reply, json_type_object)) {
 		fprintf(stderr, "latticed: the daemon at %s gave an answer that is not JSON: %.80s\n", used,
 			answer);
 		json_object_put(reply);
-		free(answer);
 		return 1;
 	}
 	bool ok = json_object_get_boolean(member(reply, "ok"));
@@ -360,9 +354,9 @@ static int run_client(const struct control_command *c, int argc, char **argv,
 		for (size_t i = 0; details && i < json_object_array_length(details); i++)
 			fprintf(stderr, "%s\n", json_object_get_string(json_object_array_get_idx(details, i)));
 		fprintf(stderr, "latticed %s: %s\n", c->name, str(reply, "error"));
-	} else if (is_status) {
+	} else if (c->kind == CONTROL_STATUS) {
 		struct json_object *st = member(reply, "status");
-		if (json)
+		if (o->json)
 			printf("%s\n", json_object_to_json_string_ext(st, JSON_C_TO_STRING_PRETTY |
 									 JSON_C_TO_STRING_SPACED));
 		else
@@ -375,12 +369,31 @@ static int run_client(const struct control_command *c, int argc, char **argv,
 	if (fflush(stdout) != 0)
 		status = 1;
 	json_object_put(reply);
-	free(answer);
 	return status;
 }
 
 int control_cmd_run(const struct control_command *c, int argc, char **argv,
 		    const char *default_config)
 {
-	return run_client(c, argc, argv, default_config);
+	struct client_options o = {0};
+	int status = read_options(c, argc, argv, default_config, &o);
+	if (status >= 0)
+		return status;
+	char paths[CONTROL_PATH_CANDIDATES][CONTROL_PATH_MAX];
+	int count = 1;
+	if (o.socket_path)
+		snprintf(paths[0], CONTROL_PATH_MAX, "%s", o.socket_path);
+	else if ((count = socket_candidates(o.config_path, default_config, paths)) == 0)
+		return 1;
+	const char *used = paths[0];
+	int fd = connect_daemon(paths, count, &used);
+	if (fd < 0)
+		return 1;
+	char *answer = exchange(fd, o.request, c->timeout_ms, used);
+	close(fd);
+	if (!answer)
+		return 1;
+	status = print_reply(c, &o, answer, used);
+	free(answer);
+	return status;
 }
