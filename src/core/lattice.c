@@ -121,16 +121,23 @@ bool lattice_parse_label(const struct lattice_spec *spec, const char *text,
 	return true;
 }
 
+/* The product of the seeds in mask, reduced into one period as it grows so
+ * the terms stay small; on overflow *in_period says whether the reduction
+ * (not the product itself) overflowed. */
 static bool product_of(const struct lattice_spec *spec, uint16_t mask,
-		       struct ratio *out)
+		       struct ratio *out, bool *in_period)
 {
 	struct ratio acc = {1, 1};
+	*in_period = false;
 	for (int i = 0; i < spec->seed_count; i++) {
 		if (!(mask & (1u << i)))
 			continue;
-		if (!ratio_mul(acc, spec->seeds[i], &acc) ||
-		    !ratio_reduce_into(acc, spec->period, &acc, NULL))
+		if (!ratio_mul(acc, spec->seeds[i], &acc))
 			return false;
+		if (!ratio_reduce_into(acc, spec->period, &acc, NULL)) {
+			*in_period = true;
+			return false;
+		}
 	}
 	*out = acc;
 	return true;
@@ -295,6 +302,43 @@ static void add_chord(struct lattice *lat, enum chord_kind kind,
 	chord_settle(c, lat);
 }
 
+/*
+ * A product that cannot be brought into one period: each division by the
+ * period multiplies the denominator, so a period close to 1/1 (such as
+ * 1000001/1000000) overflows before the product is reduced; the message
+ * blames the period (its line, in a config), and the seeds second.
+ */
+static bool period_fail(const struct lattice_spec *spec, uint16_t mask, struct core_error *err)
+{
+	char label[LATTICE_LABEL_MAX], period[RATIO_TEXT_MAX];
+	return core_fail(err, "period",
+			 "reducing the product %s into the period %s overflows 64-bit exact arithmetic, expected a period further from 1/1 (such as 2/1) or smaller seeds",
+			 lattice_label(spec, mask, label, sizeof label),
+			 ratio_format(spec->period, period, sizeof period));
+}
+
+/* The product of mask over the unison, reduced into one period. */
+static bool tone_ratio(const struct lattice_spec *spec, uint16_t mask, struct ratio unison,
+		       struct ratio *out, struct core_error *err)
+{
+	char label[LATTICE_LABEL_MAX];
+	bool in_period = false;
+	struct ratio r;
+	bool ok = product_of(spec, mask, &r, &in_period) && ratio_div(r, unison, &r);
+	if (ok && !ratio_reduce_into(r, spec->period, &r, NULL)) {
+		ok = false;
+		in_period = true;
+	}
+	if (!ok && in_period)
+		return period_fail(spec, mask, err);
+	if (!ok)
+		return core_fail(err, "seeds",
+				 "the product %s overflows 64-bit exact arithmetic; use smaller seeds",
+				 lattice_label(spec, mask, label, sizeof label));
+	*out = r;
+	return true;
+}
+
 bool lattice_build(struct lattice *out, const struct lattice_spec *spec,
 		   struct core_error *err)
 {
@@ -307,7 +351,8 @@ bool lattice_build(struct lattice *out, const struct lattice_spec *spec,
 	int n = spec->seed_count, k = spec->choose;
 
 	struct ratio unison = {1, 1};
-	if (spec->has_unison && !product_of(spec, spec->unison_seeds, &unison))
+	bool unused;
+	if (spec->has_unison && !product_of(spec, spec->unison_seeds, &unison, &unused))
 		return core_fail(err, "unison",
 				 "the unison product overflows 64-bit exact arithmetic");
 
@@ -315,18 +360,10 @@ bool lattice_build(struct lattice *out, const struct lattice_spec *spec,
 	int count = 0;
 	struct subset_walk walk;
 	subset_walk_init(&walk, n, k);
-	for (int mask; (mask = subset_walk_next(&walk)) >= 0;) {
-		struct ratio r;
-		char label[LATTICE_LABEL_MAX];
-		if (!product_of(spec, (uint16_t)mask, &r) ||
-		    !ratio_div(r, unison, &r) ||
-		    !ratio_reduce_into(r, spec->period, &r, NULL))
-			return core_fail(err, "seeds",
-					 "the product %s overflows 64-bit exact arithmetic; use smaller seeds",
-					 lattice_label(spec, (uint16_t)mask, label, sizeof label));
-		products[count].ratio = r;
+	for (int mask; (mask = subset_walk_next(&walk)) >= 0; count++) {
 		products[count].seeds = (uint16_t)mask;
-		count++;
+		if (!tone_ratio(spec, (uint16_t)mask, unison, &products[count].ratio, err))
+			return false;
 	}
 	sort_products(products, count);
 

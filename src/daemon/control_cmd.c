@@ -25,36 +25,23 @@
 #include <unistd.h>
 
 #include "config.h"
+#include "control_commands.h"
 #include "control_path.h"
 
 #define EXIT_USAGE 2
 #define REPLY_MAX (4 << 20)
 
-struct command_spec {
-	const char *name;
-	const char *args;            /* usage text for the argument, or NULL */
-	const char *summary;
-	int timeout_ms;
-};
-
-static const struct command_spec specs[] = {
-	{"status", NULL, "show what the running daemon is doing: ports, tuning, held notes, counters", 5000},
-	{"panic", NULL, "end every note on every output now", 5000},
-	{"preset", "NAME", "play new notes in preset NAME (a name, or its number: 0 is the main tuning)", 5000},
-	{"root", "N", "move the 1/1 for new notes: 0 home, n makes tone n-1 the 1/1", 5000},
-	{"reload", NULL, "read the config again and apply its tunings (SIGHUP does the same)", 60000},
-};
-
-static void usage(FILE *f, const struct command_spec *c, const char *default_config)
+static void usage(FILE *f, const struct control_command *c, const char *default_config)
 {
+	bool is_status = c->kind == CONTROL_STATUS;
 	fprintf(f, "Usage: latticed %s%s%s [--socket PATH] [--config FILE]%s\n%s.\n\n",
-		c->name, c->args ? " " : "", c->args ? c->args : "",
-		strcmp(c->name, "status") == 0 ? " [--json]" : "", c->summary);
+		c->name, c->arg ? " " : "", c->arg ? c->arg : "",
+		is_status ? " [--json]" : "", c->help);
 	fprintf(f,
 		"  -s, --socket PATH  the daemon's control socket\n"
 		"  -c, --config FILE  find the socket from FILE's control_socket (default %s)\n",
 		default_config);
-	if (strcmp(c->name, "status") == 0)
+	if (is_status)
 		fprintf(f, "  -j, --json         print the daemon's JSON reply\n");
 	fprintf(f, "  -h, --help         show this help\n");
 }
@@ -299,8 +286,39 @@ static void print_status(struct json_object *st)
 
 /* ---- the commands ----------------------------------------------------------- */
 
-static int run_client(const struct command_spec *c, int argc, char **argv,
-		      const char *default_config)
+/* The candidate socket paths from the config's control_socket; 0 when
+ * there is none to try (the reason is printed). */
+static int socket_candidates(const char *config_path, const char *default_config,
+			     char paths[][CONTROL_PATH_MAX])
+{
+	struct config *cfg = malloc(sizeof *cfg);
+	struct config_report *report = malloc(sizeof *report);
+	const char *path = NULL;
+	int count = 0;
+	bool ok = cfg && report &&
+		  config_load_or_defaults(config_path, default_config, cfg, report, &path);
+	if (!ok && report)
+		fprintf(stderr, "%.*s", (int)report->length, report->text);
+	if (ok && strcmp(cfg->daemon.control_socket, "none") == 0)
+		fprintf(stderr, "latticed: %s has control_socket = none: the daemon takes no commands\n",
+			path ? path : "the config");
+	else if (ok)
+		count = control_path_candidates(cfg->daemon.control_socket, paths);
+	free(cfg);
+	free(report);
+	return count;
+}
+
+/* What the command line asked for. */
+struct client_options {
+	const char *socket_path, *config_path;
+	bool json;
+	char request[CONFIG_PATH_MAX];
+};
+
+/* Reads the options and the argument into o; -1 to go on, else the exit status. */
+static int read_options(const struct control_command *c, int argc, char **argv,
+			const char *default_config, struct client_options *o)
 {
 	static const struct option options[] = {
 		{"socket", required_argument, NULL, 's'},
@@ -309,24 +327,22 @@ static int run_client(const struct command_spec *c, int argc, char **argv,
 		{"help", no_argument, NULL, 'h'},
 		{NULL, 0, NULL, 0},
 	};
-	const char *socket_path = NULL, *config_path = NULL;
-	bool json = false;
-	bool is_status = strcmp(c->name, "status") == 0;
+	bool is_status = c->kind == CONTROL_STATUS;
 	int opt;
 	while ((opt = getopt_long(argc, argv, is_status ? "s:c:jh" : "s:c:h", options, NULL)) != -1) {
 		switch (opt) {
 		case 's':
-			socket_path = optarg;
+			o->socket_path = optarg;
 			break;
 		case 'c':
-			config_path = optarg;
+			o->config_path = optarg;
 			break;
 		case 'j':
 			if (!is_status) {
 				fprintf(stderr, "latticed %s: --json is for status only\n", c->name);
 				return EXIT_USAGE;
 			}
-			json = true;
+			o->json = true;
 			break;
 		case 'h':
 			usage(stdout, c, default_config);
@@ -336,72 +352,37 @@ static int run_client(const struct command_spec *c, int argc, char **argv,
 			return EXIT_USAGE;
 		}
 	}
-	int wanted = c->args ? 1 : 0;
+	int wanted = c->arg ? 1 : 0;
 	if (argc - optind != wanted) {
 		if (argc - optind < wanted)
-			fprintf(stderr, "latticed %s: missing %s\n", c->name, c->args);
+			fprintf(stderr, "latticed %s: missing %s\n", c->name, c->arg);
 		else
 			fprintf(stderr, "latticed %s: unexpected argument '%s'\n", c->name, argv[optind + wanted]);
 		fprintf(stderr, "Try 'latticed %s --help'.\n", c->name);
 		return EXIT_USAGE;
 	}
-	char request[CONFIG_PATH_MAX];
-	if (wanted) {
-		const char *arg = argv[optind];
-		if (strchr(arg, '\n') || strlen(arg) > 200) {
-			fprintf(stderr, "latticed %s: '%s' is not a usable %s\n", c->name, arg, c->args);
-			return EXIT_USAGE;
-		}
-		snprintf(request, sizeof request, "%s %s", c->name, arg);
-	} else {
-		snprintf(request, sizeof request, "%s", c->name);
+	if (!wanted) {
+		snprintf(o->request, sizeof o->request, "%s", c->name);
+		return -1;
 	}
+	const char *arg = argv[optind];
+	if (strchr(arg, '\n') || strlen(arg) > 200) {
+		fprintf(stderr, "latticed %s: '%s' is not a usable %s\n", c->name, arg, c->arg);
+		return EXIT_USAGE;
+	}
+	snprintf(o->request, sizeof o->request, "%s %s", c->name, arg);
+	return -1;
+}
 
-	char paths[CONTROL_PATH_CANDIDATES][CONTROL_PATH_MAX];
-	int count;
-	if (socket_path) {
-		snprintf(paths[0], CONTROL_PATH_MAX, "%s", socket_path);
-		count = 1;
-	} else {
-		struct config *cfg = malloc(sizeof *cfg);
-		struct config_report *report = malloc(sizeof *report);
-		const char *path = config_path;
-		if (!path && access(default_config, F_OK) == 0)
-			path = default_config;
-		bool ok = cfg && report;
-		if (ok && path) {
-			ok = config_load(path, cfg, report);
-			if (!ok)
-				fprintf(stderr, "%.*s", (int)report->length, report->text);
-		} else if (ok) {
-			config_defaults(cfg);
-		}
-		if (ok && strcmp(cfg->daemon.control_socket, "none") == 0) {
-			fprintf(stderr, "latticed: %s has control_socket = none: the daemon takes no commands\n",
-				path ? path : "the config");
-			ok = false;
-		}
-		if (ok)
-			count = control_path_candidates(cfg->daemon.control_socket, paths);
-		free(cfg);
-		free(report);
-		if (!ok)
-			return 1;
-	}
-	const char *used = paths[0];
-	int fd = connect_daemon(paths, count, &used, c->timeout_ms);
-	if (fd < 0)
-		return 1;
-	char *answer = exchange(fd, request, c->timeout_ms, used);
-	close(fd);
-	if (!answer)
-		return 1;
+/* Prints the daemon's answer; returns the exit status. */
+static int print_reply(const struct control_command *c, const struct client_options *o,
+		       const char *answer, const char *used)
+{
 	struct json_object *reply = json_tokener_parse(answer);
 	if (!reply || !json_object_is_type(reply, json_type_object)) {
 		fprintf(stderr, "latticed: the daemon at %s gave an answer that is not JSON: %.80s\n", used,
 			answer);
 		json_object_put(reply);
-		free(answer);
 		return 1;
 	}
 	bool ok = json_object_get_boolean(member(reply, "ok"));
@@ -411,9 +392,9 @@ static int run_client(const struct command_spec *c, int argc, char **argv,
 		for (size_t i = 0; details && i < json_object_array_length(details); i++)
 			fprintf(stderr, "%s\n", json_object_get_string(json_object_array_get_idx(details, i)));
 		fprintf(stderr, "latticed %s: %s\n", c->name, str(reply, "error"));
-	} else if (is_status) {
+	} else if (c->kind == CONTROL_STATUS) {
 		struct json_object *st = member(reply, "status");
-		if (json)
+		if (o->json)
 			printf("%s\n", json_object_to_json_string_ext(st, JSON_C_TO_STRING_PRETTY |
 									 JSON_C_TO_STRING_SPACED));
 		else
@@ -426,22 +407,31 @@ static int run_client(const struct command_spec *c, int argc, char **argv,
 	if (fflush(stdout) != 0)
 		status = 1;
 	json_object_put(reply);
-	free(answer);
 	return status;
 }
 
-int control_cmd_run(const char *name, int argc, char **argv, const char *default_config)
+int control_cmd_run(const struct control_command *c, int argc, char **argv,
+		    const char *default_config)
 {
-	for (size_t i = 0; i < sizeof specs / sizeof specs[0]; i++)
-		if (strcmp(specs[i].name, name) == 0)
-			return run_client(&specs[i], argc, argv, default_config);
-	return EXIT_USAGE;
-}
-
-const char *control_cmd_summary(const char *name)
-{
-	for (size_t i = 0; i < sizeof specs / sizeof specs[0]; i++)
-		if (strcmp(specs[i].name, name) == 0)
-			return specs[i].summary;
-	return "";
+	struct client_options o = {0};
+	int status = read_options(c, argc, argv, default_config, &o);
+	if (status >= 0)
+		return status;
+	char paths[CONTROL_PATH_CANDIDATES][CONTROL_PATH_MAX];
+	int count = 1;
+	if (o.socket_path)
+		snprintf(paths[0], CONTROL_PATH_MAX, "%s", o.socket_path);
+	else if ((count = socket_candidates(o.config_path, default_config, paths)) == 0)
+		return 1;
+	const char *used = paths[0];
+	int fd = connect_daemon(paths, count, &used, c->timeout_ms);
+	if (fd < 0)
+		return 1;
+	char *answer = exchange(fd, o.request, c->timeout_ms, used);
+	close(fd);
+	if (!answer)
+		return 1;
+	status = print_reply(c, &o, answer, used);
+	free(answer);
+	return status;
 }

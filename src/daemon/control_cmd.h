@@ -5,11 +5,11 @@
 #ifndef LATTICED_CONTROL_CMD_H
 #define LATTICED_CONTROL_CMD_H
 
-/* Runs client command `name` ("status", ...) with its own argv
- * (argv[0] = "latticed NAME"); returns the exit status. */
-int control_cmd_run(const char *name, int argc, char **argv, const char *default_config);
+struct control_command;
 
-/* One line for `latticed --help`. */
-const char *control_cmd_summary(const char *name);
+/* Runs client command c with its own argv (argv[0] = "latticed NAME");
+ * returns the exit status. */
+int control_cmd_run(const struct control_command *c, int argc, char **argv,
+		    const char *default_config);
 
 #endif

@@ -44,7 +44,9 @@
 #include <time.h>
 #include <unistd.h>
 
+#include "clock.h"
 #include "config.h"
+#include "control_commands.h"
 #include "control_path.h"
 #include "control_server.h"
 #include "input_thread.h"
@@ -54,6 +56,7 @@
 #include "output_thread.h"
 #include "realtime.h"
 #include "snapshot.h"
+#include "tuning.h"
 
 #define THREAD_STACK (512 * 1024)
 #define MAIN_POLL_MAX (CONTROL_CLIENTS_MAX + 2)
@@ -258,7 +261,7 @@ static void start_reload(struct daemon *d, int id)
 		return;
 	}
 	if (!config_load(d->config_path, cfg, report) ||
-	    (print_report_lines(report, LOG_LEVEL_WARNING), !config_build_tunings(cfg, set, report))) {
+	    (print_report_lines(report, LOG_LEVEL_WARNING), !tuning_set_build(cfg, set, report))) {
 		reload_failed(d, id, report);
 		free(cfg);
 		free(set);
@@ -309,40 +312,15 @@ static void post_or_fail(struct daemon *d, int id, const struct request *r)
 		reply_simple(d, id, false, "the MIDI thread is busy; try again");
 }
 
-static bool parse_number(const char *text, int *out)
-{
-	char *end;
-	errno = 0;
-	long v = strtol(text, &end, 10);
-	if (errno || end == text || *end != '\0' || v < 0 || v > 100000)
-		return false;
-	*out = (int)v;
-	return true;
-}
-
 static void on_request(void *context, int id, const char *line)
 {
 	struct daemon *d = context;
-	char word[32] = "", arg[CONTROL_LINE_MAX] = "";
-	const char *p = line;
-	while (*p == ' ' || *p == '\t')
-		p++;
-	size_t n = strcspn(p, " \t");
-	if (n >= sizeof word) {
-		reply_simple(d, id, false, "unknown request, expected status, panic, preset NAME, root N or reload");
-		return;
-	}
-	memcpy(word, p, n);
-	word[n] = '\0';
-	p += n;
-	while (*p == ' ' || *p == '\t')
-		p++;
-	snprintf(arg, sizeof arg, "%s", p);
-	for (size_t len = strlen(arg); len > 0 && (arg[len - 1] == ' ' || arg[len - 1] == '\t');)
-		arg[--len] = '\0';
+	char arg[CONTROL_LINE_MAX] = "";
+	const struct control_command *c = control_command_parse(line, arg, sizeof arg);
+	enum control_kind kind = c ? c->kind : CONTROL_KIND_COUNT;
 
 	struct request r = {.id = id, .number = -1};
-	if (strcmp(word, "status") == 0) {
+	if (kind == CONTROL_STATUS) {
 		struct status_snapshot *s = malloc(sizeof *s);
 		if (!s) {
 			reply_simple(d, id, false, "out of memory");
@@ -354,11 +332,11 @@ static void on_request(void *context, int id, const char *line)
 			free(s);
 			reply_simple(d, id, false, "the MIDI thread is busy; try again");
 		}
-	} else if (strcmp(word, "panic") == 0) {
+	} else if (kind == CONTROL_PANIC) {
 		log_print(LOG_LEVEL_NOTICE, "panic requested over the control socket");
 		r.kind = REQUEST_PANIC;
 		post_or_fail(d, id, &r);
-	} else if (strcmp(word, "preset") == 0 && arg[0]) {
+	} else if (kind == CONTROL_PRESET) {
 		r.kind = REQUEST_PRESET;
 		size_t len = strlen(arg);
 		if (len >= sizeof r.name) {
@@ -366,22 +344,23 @@ static void on_request(void *context, int id, const char *line)
 			return;
 		}
 		memcpy(r.name, arg, len + 1);
-		if (!parse_number(arg, &r.number))
+		if (!control_command_number(arg, &r.number))
 			r.number = -1;
 		post_or_fail(d, id, &r);
-	} else if (strcmp(word, "root") == 0 && arg[0]) {
-		if (!parse_number(arg, &r.number)) {
+	} else if (kind == CONTROL_ROOT) {
+		if (!control_command_number(arg, &r.number)) {
 			reply_simple(d, id, false, "root needs a number: 0 (home) or n (tone n-1 becomes 1/1)");
 			return;
 		}
 		r.kind = REQUEST_ROOT;
 		post_or_fail(d, id, &r);
-	} else if (strcmp(word, "reload") == 0) {
+	} else if (kind == CONTROL_RELOAD) {
 		start_reload(d, id);
 	} else {
-		char quoted[80], text[sizeof quoted + 96];
-		snprintf(text, sizeof text, "unknown request '%s', expected status, panic, preset NAME, root N or reload",
-			 control_text_copy(quoted, sizeof quoted, line, 64));
+		char quoted[80], text[sizeof quoted + 224], known[128];
+		snprintf(text, sizeof text, "unknown request '%s', expected %s",
+			 control_text_copy(quoted, sizeof quoted, line, 64),
+			 control_command_list(known, sizeof known));
 		reply_simple(d, id, false, text);
 	}
 }
@@ -470,20 +449,16 @@ static void watchdog_tick(struct daemon *d)
 static bool load_startup_config(struct daemon *d, struct config *cfg)
 {
 	const struct daemon_options *o = d->options;
-	const char *path = o->config_path;
-	if (!path && access(o->default_config_path, F_OK) == 0)
-		path = o->default_config_path;
-	if (!path) {
-		config_defaults(cfg);
-		log_print(LOG_LEVEL_NOTICE, "no config at %s; using the built-in defaults",
-			  o->default_config_path);
-		return true;
-	}
-	snprintf(d->config_path, sizeof d->config_path, "%s", path);
 	struct config_report *report = malloc(sizeof *report);
 	if (!report)
 		return false;
-	bool ok = config_load(path, cfg, report);
+	const char *path;
+	bool ok = config_load_or_defaults(o->config_path, o->default_config_path, cfg, report, &path);
+	if (path)
+		snprintf(d->config_path, sizeof d->config_path, "%s", path);
+	else
+		log_print(LOG_LEVEL_NOTICE, "no config at %s; using the built-in defaults",
+			  o->default_config_path);
 	print_report_lines(report, LOG_LEVEL_ERROR);
 	free(report);
 	return ok;
@@ -497,7 +472,7 @@ static bool build_startup_tunings(struct daemon *d)
 		free(report);
 		return false;
 	}
-	bool ok = config_build_tunings(d->cfg, d->tunings, report);
+	bool ok = tuning_set_build(d->cfg, d->tunings, report);
 	print_report_lines(report, LOG_LEVEL_ERROR);
 	free(report);
 	if (!ok) {

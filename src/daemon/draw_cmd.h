@@ -20,6 +20,7 @@
 #include <stdio.h>
 
 #include "config.h"
+#include "tuning.h"
 
 enum draw_what { DRAW_LATTICE, DRAW_KEYS };
 

@@ -20,6 +20,7 @@
 #include <stdio.h>
 #include <string.h>
 
+#include "clock.h"
 #include "output_thread.h"
 
 #define LOW_WATER (INPUT_HIGH_WATER - 512)   /* held-back values resume below this */

@@ -21,6 +21,7 @@
 #include <time.h>
 
 #include "input_feed.h"
+#include "clock.h"
 #include "latticed/midi_encoder.h"
 #include "latticed/passthrough.h"
 #include "notice_text.h"

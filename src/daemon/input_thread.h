@@ -68,6 +68,7 @@
 #include "output_guard.h"
 #include "request.h"
 #include "spsc_queue.h"
+#include "tuning.h"
 
 #define INPUT_RETIRED_MAX 4
 #define INPUT_OUTBOX_MAX 32

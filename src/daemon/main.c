@@ -10,15 +10,16 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <unistd.h>
 
 #include "config.h"
-#include "render_cmd.h"
 #include "control_cmd.h"
+#include "control_commands.h"
 #include "daemon.h"
 #include "draw_cmd.h"
 #include "midi_io.h"
+#include "render_cmd.h"
 #include "table_cmd.h"
+#include "tuning.h"
 
 #define EXIT_USAGE 2
 
@@ -37,14 +38,7 @@ static void print_report(const struct config_report *r)
 static int load_config(const char *path, struct config *cfg)
 {
 	struct config_report report;
-	if (!path) {
-		if (access(default_config_path, F_OK) != 0) {
-			config_defaults(cfg);
-			return 0;
-		}
-		path = default_config_path;
-	}
-	bool ok = config_load(path, cfg, &report);
+	bool ok = config_load_or_defaults(path, default_config_path, cfg, &report, NULL);
 	print_report(&report);
 	return ok ? 0 : 1;
 }
@@ -57,7 +51,7 @@ static int build_tuning(const struct config *cfg, int preset, struct tuning **ou
 		fprintf(stderr, "latticed: out of memory building the tuning\n");
 		return 1;
 	}
-	bool ok = config_build_tuning(cfg, preset, t, &report);
+	bool ok = tuning_build(cfg, preset, t, &report);
 	print_report(&report);
 	if (!ok) {
 		free(t);
@@ -336,7 +330,7 @@ static int command_render(int argc, char **argv)
 	}
 	if (rc == 0) {
 		struct config_report report = {0};
-		built = config_build_tunings(cfg, &tunings, &report);
+		built = tuning_set_build(cfg, &tunings, &report);
 		print_report(&report);
 		rc = built ? 0 : 1;
 	}
@@ -425,50 +419,33 @@ static int command_ports(int argc, char **argv)
 	return daemon_command(argc, argv, "ports");
 }
 
-static int command_status(int argc, char **argv)
-{
-	return control_cmd_run("status", argc, argv, default_config_path);
-}
-
-static int command_panic(int argc, char **argv)
-{
-	return control_cmd_run("panic", argc, argv, default_config_path);
-}
-
-static int command_preset(int argc, char **argv)
-{
-	return control_cmd_run("preset", argc, argv, default_config_path);
-}
-
-static int command_root(int argc, char **argv)
-{
-	return control_cmd_run("root", argc, argv, default_config_path);
-}
-
-static int command_reload(int argc, char **argv)
-{
-	return control_cmd_run("reload", argc, argv, default_config_path);
-}
-
+/* A command of our own, or one of the control commands (control_commands.h),
+ * whose name and summary come from there. */
 struct command {
 	const char *name;
 	int (*run)(int argc, char **argv);
 	const char *summary;
+	const struct control_command *control;
 };
 
 static const struct command commands[] = {
-	{"run", command_run, "run the retuning daemon in the foreground (Ctrl-C stops it)"},
-	{"status", command_status, "show what the running daemon is doing"},
-	{"panic", command_panic, "end every note on every output now"},
-	{"preset", command_preset, "switch the running daemon to preset NAME for new notes"},
-	{"root", command_root, "move the 1/1 of the running daemon: 0 home, n = tone n-1"},
-	{"reload", command_reload, "make the running daemon read its config again"},
-	{"ports", command_ports, "list the MIDI ports latticed can connect to"},
-	{"table", command_table, "print the lattice, its chords and the key map"},
-	{"render", command_render, "retune a MIDI file"},
-	{"draw", command_draw, "draw the lattice or a keyboard chart as SVG"},
+	{"run", command_run, "run the retuning daemon in the foreground (Ctrl-C stops it)", NULL},
+	{.control = &control_commands[CONTROL_STATUS]},
+	{.control = &control_commands[CONTROL_PANIC]},
+	{.control = &control_commands[CONTROL_PRESET]},
+	{.control = &control_commands[CONTROL_ROOT]},
+	{.control = &control_commands[CONTROL_RELOAD]},
+	{"ports", command_ports, "list the MIDI ports latticed can connect to", NULL},
+	{"table", command_table, "print the lattice, its chords and the key map", NULL},
+	{"render", command_render, "retune a MIDI file", NULL},
+	{"draw", command_draw, "draw the lattice or a keyboard chart as SVG", NULL},
 };
 #define COMMAND_COUNT ((int)(sizeof commands / sizeof commands[0]))
+
+static const char *command_name(const struct command *c)
+{
+	return c->control ? c->control->name : c->name;
+}
 
 static void usage(FILE *f)
 {
@@ -477,7 +454,8 @@ static void usage(FILE *f)
 		"Retune MIDI to just-intonation lattices (combination product sets).\n"
 		"\nCommands:\n");
 	for (int i = 0; i < COMMAND_COUNT; i++)
-		fprintf(f, "  %-8s %s\n", commands[i].name, commands[i].summary);
+		fprintf(f, "  %-8s %s\n", command_name(&commands[i]),
+			commands[i].control ? commands[i].control->summary : commands[i].summary);
 	fprintf(f,
 		"\nOptions:\n"
 		"  -h, --help     show this help ('latticed COMMAND --help' for a command)\n"
@@ -502,12 +480,15 @@ int main(int argc, char **argv)
 		return 0;
 	}
 	for (int i = 0; i < COMMAND_COUNT; i++) {
-		if (strcmp(name, commands[i].name) == 0) {
+		const struct command *c = &commands[i];
+		if (strcmp(name, command_name(c)) == 0) {
 			/* getopt names argv[0] in its messages: "latticed table: ..." */
 			char program[64];
 			snprintf(program, sizeof program, "latticed %s", name);
 			argv[1] = program;
-			return commands[i].run(argc - 1, argv + 1);
+			if (c->control)
+				return control_cmd_run(c->control, argc - 1, argv + 1, default_config_path);
+			return c->run(argc - 1, argv + 1);
 		}
 	}
 	if (name[0] == '-')

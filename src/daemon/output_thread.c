@@ -15,18 +15,13 @@
 #include <time.h>
 #include <unistd.h>
 
+#include "clock.h"
+
 #define STOP_RETRY_MS 2000
 #define RETRY_FIRST_MS 1
 #define RETRY_MAX_MS 4
 #define BATCH_MESSAGES 256           /* per output per round, so none waits long */
 #define BLOCKED_LOG_INTERVAL_MS 1000
-
-int64_t monotonic_ms(void)
-{
-	struct timespec ts;
-	clock_gettime(CLOCK_MONOTONIC, &ts);
-	return (int64_t)ts.tv_sec * 1000 + ts.tv_nsec / 1000000;
-}
 
 void wake_fd_signal(int fd)
 {

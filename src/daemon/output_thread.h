@@ -85,9 +85,6 @@ void output_thread_stop(struct output_thread *t);
 /* Input thread: wake me when `output`'s ring holds fewer than `fill` slots. */
 void output_thread_want_room(struct output_thread *t, int output, size_t fill);
 
-/* Milliseconds on CLOCK_MONOTONIC (for rate-limited log lines). */
-int64_t monotonic_ms(void);
-
 /* Adds one to an eventfd (a wake-up); never blocks. */
 void wake_fd_signal(int fd);
 /* Resets an eventfd after a wake-up. */

@@ -497,7 +497,7 @@ static void print_summary(const char *in_name, const char *out_name,
 	fprintf(stderr,
 		"latticed render: %s -> %s: format %u, %zu track%s, output '%s' (%s): %zu events in, %zu out; %u notes (%u shared, %u stolen, %u dropped, %u on silent keys), %u tuning changes\n",
 		in_name, out_name, in->format, in->track_count, in->track_count == 1 ? "" : "s",
-		o->name, retune_method_name(o->method), rep->events_in, rep->events_out,
+		o->name, retune_method_name(o->engine.method), rep->events_in, rep->events_out,
 		s->notes_on, s->notes_shared, s->notes_stolen, s->notes_dropped, s->silent_keys,
 		s->tuning_changes);
 }

@@ -29,7 +29,7 @@ static char *key_name(int key, char *buf, size_t size)
 
 static bool output_uses_bend(const struct output_config *o)
 {
-	return retune_method_bends_notes(o->method);
+	return retune_method_bends_notes(o->engine.method);
 }
 
 /* Each output's view of the key map (its cents offset applied), built once
@@ -39,7 +39,7 @@ static struct retune_table output_tables[CONFIG_MAX_OUTPUTS]; /* single-threaded
 static void build_output_tables(const struct config *cfg, const struct keymap *map)
 {
 	for (int o = 0; o < cfg->output_count; o++)
-		retune_table_build(&output_tables[o], map, cfg->outputs[o].cents_offset);
+		retune_table_build(&output_tables[o], map, cfg->outputs[o].engine.cents_offset);
 }
 
 /* The bend output number o sends for a key: its own offset, range and factor. */
@@ -47,7 +47,7 @@ static struct bend output_bend(const struct config *cfg, int o, int key)
 {
 	const struct output_config *out = &cfg->outputs[o];
 	const struct retune_key *rk = &output_tables[o].keys[key];
-	return pitch_bend_for_cents(rk->cents, output_bend_range(out), out->bend_factor);
+	return pitch_bend_for_cents(rk->cents, out->engine.bend_range, out->engine.bend_played);
 }
 
 static void print_seeds(FILE *f, const struct lattice_spec *spec)
@@ -79,15 +79,10 @@ static void print_key_ranges(FILE *f, const struct keymap *map,
 		fputc('\n', f);
 }
 
-void table_print_text(FILE *f, const struct config *cfg, int preset, const struct tuning *t)
+static void print_lattice(FILE *f, const struct config *cfg, int preset, const struct lattice *lat)
 {
-	const struct lattice *lat = &t->lattice;
 	const struct lattice_spec *spec = &lat->spec;
-	const struct keymap *map = &t->keymap;
-	build_output_tables(cfg, map);
-	const struct keymap_spec *keys = &cfg->presets[preset].keys;
-	char label[LATTICE_LABEL_MAX], text[RATIO_TEXT_MAX], name[8];
-
+	char label[LATTICE_LABEL_MAX], text[RATIO_TEXT_MAX];
 	fprintf(f, "config   %s\n", cfg->path);
 	if (cfg->preset_count > 1) {
 		fprintf(f, "presets ");
@@ -106,26 +101,56 @@ void table_print_text(FILE *f, const struct config *cfg, int preset, const struc
 	fprintf(f, "         %d tones, %d harmonic and %d subharmonic chords\n",
 		lat->tone_count, lat->harmonic_count,
 		lat->chord_count - lat->harmonic_count);
+}
 
-	int label_width = 5;
+/* The widest tone label, at least as wide as the column's title. */
+static int label_width_of(const struct lattice *lat)
+{
+	char label[LATTICE_LABEL_MAX];
+	int width = 5;
 	for (int i = 0; i < lat->tone_count; i++) {
-		int w = (int)strlen(lattice_label(spec, lat->tones[i].seeds, label, sizeof label));
-		if (w > label_width)
-			label_width = w;
+		int w = (int)strlen(lattice_label(&lat->spec, lat->tones[i].seeds, label, sizeof label));
+		if (w > width)
+			width = w;
 	}
+	return width;
+}
 
+static void print_tones(FILE *f, const struct lattice *lat, int label_width)
+{
+	char label[LATTICE_LABEL_MAX], text[RATIO_TEXT_MAX];
 	fprintf(f, "\ntones\n  %4s  %-*s  %13s  %9s\n", "tone", label_width, "seeds",
 		"ratio", "cents");
 	for (int i = 0; i < lat->tone_count; i++) {
 		const struct tone *tone = &lat->tones[i];
 		fprintf(f, "  %4d  %-*s  %13s  %9.3f", i, label_width,
-			lattice_label(spec, tone->seeds, label, sizeof label),
+			lattice_label(&lat->spec, tone->seeds, label, sizeof label),
 			ratio_format(tone->ratio, text, sizeof text), tone->cents);
 		if (tone->merged_count)
 			fprintf(f, "  (+%d merged)", tone->merged_count);
 		fputc('\n', f);
 	}
+}
 
+/* "1.3 1.5 3.5": the chord's tones by label. */
+static void chord_tones(const struct lattice *lat, const struct chord *ch, char *tones, size_t size)
+{
+	size_t used = 0;
+	tones[0] = '\0';
+	for (int i = 0; i < ch->tone_count; i++) {
+		char member[LATTICE_LABEL_MAX];
+		int n = snprintf(tones + used, size - used, "%s%s", i ? " " : "",
+				 lattice_label(&lat->spec, lat->tones[ch->tones[i]].seeds,
+					       member, sizeof member));
+		if (n < 0 || (size_t)n >= size - used)
+			break;
+		used += (size_t)n;
+	}
+}
+
+static void print_chords(FILE *f, const struct lattice *lat, int label_width)
+{
+	char label[LATTICE_LABEL_MAX];
 	int widest_chord = 0;
 	for (int c = 0; c < lat->chord_count; c++)
 		if (lat->chords[c].tone_count > widest_chord)
@@ -135,19 +160,9 @@ void table_print_text(FILE *f, const struct config *cfg, int preset, const struc
 		"seeds", tones_width, "tones", "proportion");
 	for (int c = 0; c < lat->chord_count; c++) {
 		const struct chord *ch = &lat->chords[c];
-		char tones[LATTICE_MAX_CHORD_TONES * (LATTICE_LABEL_MAX + 1)] = "";
-		size_t used = 0;
-		for (int i = 0; i < ch->tone_count; i++) {
-			char member[LATTICE_LABEL_MAX];
-			int n = snprintf(tones + used, sizeof tones - used, "%s%s",
-					 i ? " " : "",
-					 lattice_label(spec, lat->tones[ch->tones[i]].seeds,
-						       member, sizeof member));
-			if (n < 0 || (size_t)n >= sizeof tones - used)
-				break;
-			used += (size_t)n;
-		}
-		const char *on = ch->seeds ? lattice_label(spec, ch->seeds, label, sizeof label) : "-";
+		char tones[LATTICE_MAX_CHORD_TONES * (LATTICE_LABEL_MAX + 1)];
+		chord_tones(lat, ch, tones, sizeof tones);
+		const char *on = ch->seeds ? lattice_label(&lat->spec, ch->seeds, label, sizeof label) : "-";
 		fprintf(f, "  %-11s  %-*s  %-*s  ",
 			ch->kind == CHORD_HARMONIC ? "harmonic" : "subharmonic",
 			label_width + 2, on, tones_width, tones);
@@ -157,7 +172,10 @@ void table_print_text(FILE *f, const struct config *cfg, int preset, const struc
 			fprintf(f, "%s%lld", i ? ":" : "", (long long)ch->proportion[i]);
 		fputc('\n', f);
 	}
+}
 
+static void print_outputs(FILE *f, const struct config *cfg, const struct keymap_spec *keys)
+{
 	fprintf(f, "\nkeys     layout %s", key_layout_name(keys->layout));
 	if (keys->layout != KEY_LAYOUT_NEAREST)
 		fprintf(f, ", tone 0 on key %d", keys->root_key);
@@ -168,19 +186,25 @@ void table_print_text(FILE *f, const struct config *cfg, int preset, const struc
 		const struct output_config *out = &cfg->outputs[o];
 		char chans[64];
 		fprintf(f, "output   %s: %s on channels %s", out->name,
-			retune_method_name(out->method),
-			config_format_channels(out->channels, chans, sizeof chans));
+			retune_method_name(out->engine.method),
+			config_format_channels(out->engine.channels, chans, sizeof chans));
 		if (output_uses_bend(out))
-			fprintf(f, ", bend range +-%d semitones", output_bend_range(out));
-		if (out->method == RETUNE_MTS)
-			fprintf(f, ", tuning program %d", out->mts_program);
-		if (out->bend_factor != 1.0)
-			fprintf(f, ", synth plays %.7g of a bend", out->bend_factor);
-		if (out->cents_offset != 0.0)
-			fprintf(f, ", %+g cents", out->cents_offset);
+			fprintf(f, ", bend range +-%d semitones", out->engine.bend_range);
+		if (out->engine.method == RETUNE_MTS)
+			fprintf(f, ", tuning program %d", out->engine.mts_program);
+		if (out->engine.bend_played != 1.0)
+			fprintf(f, ", synth plays %.7g of a bend", out->engine.bend_played);
+		if (out->engine.cents_offset != 0.0)
+			fprintf(f, ", %+g cents", out->engine.cents_offset);
 		fputc('\n', f);
 	}
+}
 
+static void print_keys(FILE *f, const struct config *cfg, const struct tuning *t, int label_width)
+{
+	const struct lattice *lat = &t->lattice;
+	const struct keymap *map = &t->keymap;
+	char label[LATTICE_LABEL_MAX], name[8];
 	fprintf(f, "\n  %3s  %-4s  %4s  %-*s  %6s  %10s  %3s  %8s", "key", "name",
 		"tone", label_width, "seeds", "period", "Hz", "out", "cents");
 	for (int o = 0; o < cfg->output_count; o++)
@@ -193,11 +217,10 @@ void table_print_text(FILE *f, const struct config *cfg, int preset, const struc
 			continue;
 		fprintf(f, "  %3d  %-4s  %4d  %-*s  %6d  %10.3f  %3d  %+8.3f", k,
 			key_name(k, name, sizeof name), kp->tone, label_width,
-			lattice_label(spec, lat->tones[kp->tone].seeds, label, sizeof label),
+			lattice_label(&lat->spec, lat->tones[kp->tone].seeds, label, sizeof label),
 			kp->period, kp->hz, kp->out_key, kp->cents_off);
 		for (int o = 0; o < cfg->output_count; o++) {
-			const struct output_config *out = &cfg->outputs[o];
-			if (!output_uses_bend(out))
+			if (!output_uses_bend(&cfg->outputs[o]))
 				continue;
 			struct bend b = output_bend(cfg, o, k);
 			fprintf(f, "  %6u %+7.3f", b.value, b.error_cents);
@@ -216,6 +239,17 @@ void table_print_text(FILE *f, const struct config *cfg, int preset, const struc
 			 "silent, pitch outside MIDI (below key 0 or above MTS 7F 7F 7E)");
 }
 
+void table_print_text(FILE *f, const struct config *cfg, int preset, const struct tuning *t)
+{
+	build_output_tables(cfg, &t->keymap);
+	int label_width = label_width_of(&t->lattice);
+	print_lattice(f, cfg, preset, &t->lattice);
+	print_tones(f, &t->lattice, label_width);
+	print_chords(f, &t->lattice, label_width);
+	print_outputs(f, cfg, &cfg->presets[preset].keys);
+	print_keys(f, cfg, t, label_width);
+}
+
 static struct json_object *fixed(double value, int decimals)
 {
 	char buf[64];
@@ -232,22 +266,9 @@ static struct json_object *key_list(const struct keymap *map, enum key_state sta
 	return list;
 }
 
-int table_print_json(FILE *f, const struct config *cfg, int preset, const struct tuning *t)
+static struct json_object *json_lattice(const struct lattice_spec *spec)
 {
-	const struct lattice *lat = &t->lattice;
-	const struct lattice_spec *spec = &lat->spec;
-	const struct keymap *map = &t->keymap;
-	build_output_tables(cfg, map);
 	char label[LATTICE_LABEL_MAX], text[RATIO_TEXT_MAX];
-
-	struct json_object *root = json_object_new_object();
-	json_object_object_add(root, "config", json_object_new_string(cfg->path));
-	json_object_object_add(root, "preset", json_object_new_string(cfg->presets[preset].name));
-	struct json_object *presets = json_object_new_array();
-	for (int i = 0; i < cfg->preset_count; i++)
-		json_object_array_add(presets, json_object_new_string(cfg->presets[i].name));
-	json_object_object_add(root, "presets", presets);
-
 	struct json_object *jl = json_object_new_object();
 	struct json_object *seeds = json_object_new_array();
 	for (int i = 0; i < spec->seed_count; i++)
@@ -259,8 +280,13 @@ int table_print_json(FILE *f, const struct config *cfg, int preset, const struct
 	json_object_object_add(jl, "unison", spec->has_unison
 			       ? json_object_new_string(lattice_label(spec, spec->unison_seeds, label, sizeof label))
 			       : NULL);
-	json_object_object_add(root, "lattice", jl);
+	return jl;
+}
 
+static struct json_object *json_tones(const struct lattice *lat)
+{
+	const struct lattice_spec *spec = &lat->spec;
+	char label[LATTICE_LABEL_MAX], text[RATIO_TEXT_MAX];
 	struct json_object *tones = json_object_new_array();
 	for (int i = 0; i < lat->tone_count; i++) {
 		const struct tone *tone = &lat->tones[i];
@@ -279,8 +305,12 @@ int table_print_json(FILE *f, const struct config *cfg, int preset, const struct
 		json_object_object_add(jt, "merged", merged);
 		json_object_array_add(tones, jt);
 	}
-	json_object_object_add(root, "tones", tones);
+	return tones;
+}
 
+static struct json_object *json_chords(const struct lattice *lat)
+{
+	char label[LATTICE_LABEL_MAX];
 	struct json_object *chords = json_object_new_array();
 	for (int c = 0; c < lat->chord_count; c++) {
 		const struct chord *ch = &lat->chords[c];
@@ -288,7 +318,7 @@ int table_print_json(FILE *f, const struct config *cfg, int preset, const struct
 		json_object_object_add(jc, "kind", json_object_new_string(
 			ch->kind == CHORD_HARMONIC ? "harmonic" : "subharmonic"));
 		json_object_object_add(jc, "seeds", json_object_new_string(
-			lattice_label(spec, ch->seeds, label, sizeof label)));
+			lattice_label(&lat->spec, ch->seeds, label, sizeof label)));
 		struct json_object *members = json_object_new_array();
 		struct json_object *prop = json_object_new_array();
 		for (int i = 0; i < ch->tone_count; i++) {
@@ -302,26 +332,54 @@ int table_print_json(FILE *f, const struct config *cfg, int preset, const struct
 			json_object_put(prop);
 		json_object_array_add(chords, jc);
 	}
-	json_object_object_add(root, "chords", chords);
+	return chords;
+}
 
+static struct json_object *json_outputs(const struct config *cfg)
+{
 	struct json_object *outputs = json_object_new_array();
 	for (int o = 0; o < cfg->output_count; o++) {
 		const struct output_config *out = &cfg->outputs[o];
 		struct json_object *jo = json_object_new_object();
 		json_object_object_add(jo, "name", json_object_new_string(out->name));
-		json_object_object_add(jo, "method", json_object_new_string(retune_method_name(out->method)));
+		json_object_object_add(jo, "method", json_object_new_string(retune_method_name(out->engine.method)));
 		struct json_object *chans = json_object_new_array();
 		for (int ch = 0; ch < 16; ch++)
-			if (out->channels & (1u << ch))
+			if (out->engine.channels & (1u << ch))
 				json_object_array_add(chans, json_object_new_int(ch + 1));
 		json_object_object_add(jo, "channels", chans);
-		json_object_object_add(jo, "bend_range", json_object_new_int(output_bend_range(out)));
-		json_object_object_add(jo, "bend_factor", fixed(out->bend_factor, 9));
-		json_object_object_add(jo, "cents_offset", fixed(out->cents_offset, 6));
+		json_object_object_add(jo, "bend_range", json_object_new_int(out->engine.bend_range));
+		json_object_object_add(jo, "bend_factor", fixed(out->engine.bend_played, 9));
+		json_object_object_add(jo, "cents_offset", fixed(out->engine.cents_offset, 6));
 		json_object_array_add(outputs, jo);
 	}
-	json_object_object_add(root, "outputs", outputs);
+	return outputs;
+}
 
+/* Every output's bend for key k into jk; the first also at top level. */
+static void json_key_bends(struct json_object *jk, const struct config *cfg, int k)
+{
+	struct json_object *bends = json_object_new_object();
+	for (int o = 0; o < cfg->output_count; o++) {
+		struct bend b = output_bend(cfg, o, k);
+		if (o == 0) {
+			/* the first output's bend, at top level for quick use */
+			json_object_object_add(jk, "bend", json_object_new_int(b.value));
+			json_object_object_add(jk, "bend_error_cents", fixed(b.error_cents, 6));
+		}
+		struct json_object *jb = json_object_new_object();
+		json_object_object_add(jb, "value", json_object_new_int(b.value));
+		json_object_object_add(jb, "error_cents", fixed(b.error_cents, 6));
+		json_object_object_add(bends, cfg->outputs[o].name, jb);
+	}
+	json_object_object_add(jk, "bends", bends);
+}
+
+static struct json_object *json_keys(const struct config *cfg, const struct tuning *t)
+{
+	const struct lattice *lat = &t->lattice;
+	const struct keymap *map = &t->keymap;
+	char label[LATTICE_LABEL_MAX];
 	struct json_object *jkeys = json_object_new_array();
 	for (int k = 0; k < KEYMAP_KEYS; k++) {
 		const struct key_pitch *kp = &map->keys[k];
@@ -331,35 +389,37 @@ int table_print_json(FILE *f, const struct config *cfg, int preset, const struct
 		json_object_object_add(jk, "key", json_object_new_int(k));
 		json_object_object_add(jk, "tone", json_object_new_int(kp->tone));
 		json_object_object_add(jk, "label", json_object_new_string(
-			lattice_label(spec, lat->tones[kp->tone].seeds, label, sizeof label)));
+			lattice_label(&lat->spec, lat->tones[kp->tone].seeds, label, sizeof label)));
 		json_object_object_add(jk, "period", json_object_new_int(kp->period));
 		json_object_object_add(jk, "hz", fixed(kp->hz, 6));
 		json_object_object_add(jk, "out_key", json_object_new_int(kp->out_key));
 		json_object_object_add(jk, "cents_off", fixed(kp->cents_off, 6));
-		struct json_object *bends = json_object_new_object();
-		bool first = true;
-		for (int o = 0; o < cfg->output_count; o++) {
-			const struct output_config *out = &cfg->outputs[o];
-			struct bend b = output_bend(cfg, o, k);
-			if (first) {
-				/* the first output's bend, at top level for quick use */
-				json_object_object_add(jk, "bend", json_object_new_int(b.value));
-				json_object_object_add(jk, "bend_error_cents", fixed(b.error_cents, 6));
-				first = false;
-			}
-			struct json_object *jb = json_object_new_object();
-			json_object_object_add(jb, "value", json_object_new_int(b.value));
-			json_object_object_add(jb, "error_cents", fixed(b.error_cents, 6));
-			json_object_object_add(bends, out->name, jb);
-		}
-		json_object_object_add(jk, "bends", bends);
+		json_key_bends(jk, cfg, k);
 		struct json_object *mts = json_object_new_array();
 		for (int i = 0; i < 3; i++)
 			json_object_array_add(mts, json_object_new_int(kp->mts[i]));
 		json_object_object_add(jk, "mts", mts);
 		json_object_array_add(jkeys, jk);
 	}
-	json_object_object_add(root, "keys", jkeys);
+	return jkeys;
+}
+
+int table_print_json(FILE *f, const struct config *cfg, int preset, const struct tuning *t)
+{
+	const struct keymap *map = &t->keymap;
+	build_output_tables(cfg, map);
+	struct json_object *root = json_object_new_object();
+	json_object_object_add(root, "config", json_object_new_string(cfg->path));
+	json_object_object_add(root, "preset", json_object_new_string(cfg->presets[preset].name));
+	struct json_object *presets = json_object_new_array();
+	for (int i = 0; i < cfg->preset_count; i++)
+		json_object_array_add(presets, json_object_new_string(cfg->presets[i].name));
+	json_object_object_add(root, "presets", presets);
+	json_object_object_add(root, "lattice", json_lattice(&t->lattice.spec));
+	json_object_object_add(root, "tones", json_tones(&t->lattice));
+	json_object_object_add(root, "chords", json_chords(&t->lattice));
+	json_object_object_add(root, "outputs", json_outputs(cfg));
+	json_object_object_add(root, "keys", json_keys(cfg, t));
 	json_object_object_add(root, "silent_keys", key_list(map, KEY_SILENT));
 	json_object_object_add(root, "out_of_range_keys", key_list(map, KEY_OUT_OF_RANGE));
 

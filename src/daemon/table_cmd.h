@@ -9,6 +9,7 @@
 #include <stdio.h>
 
 #include "config.h"
+#include "tuning.h"
 
 void table_print_text(FILE *f, const struct config *cfg, int preset, const struct tuning *t);
 /* Returns 0, or -1 if writing failed. */

@@ -44,7 +44,6 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <time.h>
 #include <unistd.h>
 
 #include <portmidi.h>
@@ -52,6 +51,7 @@
 #ifdef LATTICED_HAVE_ALSA
 #include "alsa_quiet.h"
 #endif
+#include "clock.h"
 #include "midi_io.h"
 #include "pm_bytes.h"
 #include "source_ids.h"
@@ -111,17 +111,10 @@ static pthread_mutex_t pm_lock = PTHREAD_MUTEX_INITIALIZER;
 static bool initialized;
 static struct midi_io *open_instance;
 
-static int64_t now_ms(void)
-{
-	struct timespec t;
-	clock_gettime(CLOCK_MONOTONIC, &t);
-	return (int64_t)t.tv_sec * 1000 + t.tv_nsec / 1000000;
-}
-
 static PmTimestamp time_proc(void *info)
 {
 	(void)info;
-	return (PmTimestamp)now_ms();
+	return (PmTimestamp)monotonic_ms();
 }
 
 static PmError initialize(void)
@@ -365,7 +358,7 @@ static struct midi_io *pm_open(const struct midi_io_spec *spec, const struct mid
 	open_instance = io;
 	open_outputs(io);
 	open_inputs(io);
-	io->next_scan_ms = now_ms() + RESCAN_MS;
+	io->next_scan_ms = monotonic_ms() + RESCAN_MS;
 	pthread_mutex_unlock(&pm_lock);
 	return io;
 }
@@ -449,8 +442,8 @@ static void pm_service_input(struct midi_io *io)
 			n++;
 			more |= got == READ_CHUNK;
 		}
-		if (!more && io->input_count == 0 && now_ms() >= io->next_scan_ms) {
-			int64_t t = now_ms();
+		if (!more && io->input_count == 0 && monotonic_ms() >= io->next_scan_ms) {
+			int64_t t = monotonic_ms();
 			if (something_missing(io)) {
 				if (!io->missing_since_ms)
 					io->missing_since_ms = t;
@@ -459,7 +452,7 @@ static void pm_service_input(struct midi_io *io)
 				io->missing_since_ms = 0;
 			}
 			bool slow = io->missing_since_ms && t - io->missing_since_ms > RESCAN_FAST_FOR_MS;
-			io->next_scan_ms = now_ms() + (slow ? RESCAN_SLOW_MS : RESCAN_MS);
+			io->next_scan_ms = monotonic_ms() + (slow ? RESCAN_SLOW_MS : RESCAN_MS);
 		}
 		report_count = io->report_count;
 		memcpy(reports, io->reports, sizeof reports[0] * (size_t)report_count);

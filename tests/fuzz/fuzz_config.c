@@ -7,7 +7,7 @@
  *     report starts with the file name ("fuzz.conf:LINE: ..." or
  *     "fuzz.conf: ...") and ends in a newline; the caller's config is left
  *     as it was on a refusal;
- *   - on success, config_build_tunings either builds every preset or
+ *   - on success, tuning_set_build either builds every preset or
  *     refuses with an error line in the same form;
  *   - on success, every output's engine spec is one engine_init takes (the
  *     config reader checks every value an engine needs), and the engine
@@ -19,6 +19,7 @@
 #include <string.h>
 
 #include "config.h"
+#include "tuning.h"
 #include "latticed/engine.h"
 #include "latticed/midi_encoder.h"
 
@@ -78,7 +79,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
 		die("an accepted config has no preset or no output");
 
 	struct tuning_set set;
-	if (!config_build_tunings(&cfg, &set, &report)) {
+	if (!tuning_set_build(&cfg, &set, &report)) {
 		check_report(&report, true);
 		return 0;
 	}

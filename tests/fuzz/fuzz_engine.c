@@ -38,6 +38,7 @@
 #include <string.h>
 
 #include "config.h"
+#include "tuning.h"
 /* the model's pitch helpers are for the unit tests; this target uses its parser */
 #pragma GCC diagnostic push
 #pragma GCC diagnostic ignored "-Wunused-function"
@@ -76,7 +77,7 @@ static void build_set(const char *text, struct tuning_set *set)
 	static struct config cfg;
 	static struct config_report report;
 	if (!config_parse(text, strlen(text), "fuzz-tunings", &cfg, &report) ||
-	    !config_build_tunings(&cfg, set, &report)) {
+	    !tuning_set_build(&cfg, set, &report)) {
 		fputs(report.text, stderr);
 		die("the built-in tunings do not build");
 	}
