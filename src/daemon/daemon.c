@@ -20,20 +20,15 @@
  * restored for SIGINT, so a second one ends the process at once even if
  * the orderly stop hangs.
  *
- * Reload (SIGHUP or `reload`): the file is read and the tunings built
- * here; any error is logged line by line and the running state is kept.
- * Only the tunings are applied, between two MIDI messages, without
- * cutting a sounding note.  Settings that would need new ports or new
- * engines ([daemon], connect, outputs added or removed, an output's
- * method, channels and the other retuning settings, [input], [control])
- * are not applied: each is logged as needing a restart.
+ * Reloads are in daemon_reload.c, control requests and the input
+ * thread's replies in daemon_requests.c; the state they share is struct
+ * daemon (daemon_private.h).
  */
 /* ppoll(2), Linux: the race-free sleep with signals open only while asleep */
 #define _GNU_SOURCE
-#include "daemon.h"
+#include "daemon_private.h"
 
 #include <errno.h>
-#include <json-c/json.h>
 #include <poll.h>
 #include <pthread.h>
 #include <signal.h>
@@ -76,35 +71,7 @@ static void on_signal(int sig)
 		quit_requested = sig;
 }
 
-struct daemon {
-	const struct daemon_options *options;
-	char config_path[CONFIG_PATH_MAX];   /* empty: built-in defaults */
-	struct config *cfg;                  /* as started: ports and engines */
-	struct tuning_set *tunings;          /* current, owned by the input thread while it runs */
-	const struct midi_io_backend *backend;
-	struct midi_io *io;
-	struct msg_queue *messages;
-	struct input_thread *in;
-	struct output_thread *out;
-	struct control_server control;
-	int main_wake_fd;
-	bool threads_running;
-	int64_t started_ms;
-	uint64_t watchdog_usec;
-	uint64_t last_heartbeat;
-	int64_t last_ping_ms;
-	bool stall_logged;
-	bool reload_in_flight;
-	bool panic_pending;                  /* SIGUSR1 not yet taken by the input thread */
-	int reload_client;                   /* -1: SIGHUP */
-	char reload_notes[512];              /* what needs a restart */
-	char state[REPLY_TEXT_MAX];          /* current preset and root */
-	sigset_t run_mask;                   /* signals unblocked inside ppoll */
-};
-
-/* ---- helpers ------------------------------------------------------------- */
-
-static void print_report_lines(const struct config_report *r, enum log_level errors)
+void daemon_print_report_lines(const struct config_report *r, enum log_level errors)
 {
 	const char *p = r->text, *end = r->text + r->length;
 	while (p < end) {
@@ -116,6 +83,7 @@ static void print_report_lines(const struct config_report *r, enum log_level err
 		p = nl + 1;
 	}
 }
+
 
 static const struct midi_io_backend *choose_backend(const char *name, char *err, size_t err_size)
 {
@@ -132,292 +100,6 @@ static const struct midi_io_backend *choose_backend(const char *name, char *err,
 		snprintf(err, err_size, "backend '%s' is not in this build, expected one of: %s",
 			 name, midi_io_available());
 	return b;
-}
-
-static void reply_json(struct daemon *d, int id, struct json_object *o)
-{
-	if (id >= 0)
-		control_server_reply(&d->control, id,
-				     json_object_to_json_string_ext(o, JSON_C_TO_STRING_PLAIN));
-	json_object_put(o);
-}
-
-static void reply_simple(struct daemon *d, int id, bool ok, const char *text)
-{
-	struct json_object *o = json_object_new_object();
-	json_object_object_add(o, "ok", json_object_new_boolean(ok));
-	json_object_object_add(o, ok ? "message" : "error", json_object_new_string(text));
-	reply_json(d, id, o);
-}
-
-/* ---- reload ---------------------------------------------------------------- */
-
-static void note_restart(struct daemon *d, const char *what)
-{
-	size_t used = strlen(d->reload_notes);
-	snprintf(d->reload_notes + used, sizeof d->reload_notes - used, "%s%s",
-		 used ? "; " : "", what);
-	log_print(LOG_LEVEL_NOTICE, "reload: %s changed; this needs a restart (not applied)", what);
-}
-
-static bool same_connect(const struct connect_list *a, const struct connect_list *b)
-{
-	if (a->count != b->count)
-		return false;
-	for (int i = 0; i < a->count; i++)
-		if (strcmp(a->patterns[i], b->patterns[i]) != 0)
-			return false;
-	return true;
-}
-
-/* Lists (and logs) what a reload cannot apply without a restart. */
-static void compare_for_restart(struct daemon *d, const struct config *now)
-{
-	const struct config *was = d->cfg;
-	char what[128];
-	d->reload_notes[0] = '\0';
-	const struct daemon_config *a = &was->daemon, *b = &now->daemon;
-	if (strcmp(a->backend, b->backend) || strcmp(a->client_name, b->client_name) ||
-	    a->realtime_priority != b->realtime_priority || a->lock_memory != b->lock_memory ||
-	    strcmp(a->control_socket, b->control_socket))
-		note_restart(d, "[daemon]");
-	if (!same_connect(&was->input.connect, &now->input.connect))
-		note_restart(d, "[input] connect");
-	bool outputs_same = was->output_count == now->output_count;
-	for (int i = 0; outputs_same && i < was->output_count; i++)
-		outputs_same = strcmp(was->outputs[i].name, now->outputs[i].name) == 0;
-	if (!outputs_same) {
-		note_restart(d, "the list of [output] sections");
-	} else {
-		for (int i = 0; i < was->output_count; i++) {
-			struct engine_spec sa, sb;
-			config_engine_spec(was, i, &sa);
-			config_engine_spec(now, i, &sb);
-			/* the input and control parts are the same for every output: report once */
-			if (i == 0 && (memcmp(&sa.input, &sb.input, sizeof sa.input) ||
-				       memcmp(&sa.control, &sb.control, sizeof sa.control)))
-				note_restart(d, "[input] or [control]");
-			if (memcmp(&sa.output, &sb.output, sizeof sa.output) ||
-			    was->outputs[i].running_status != now->outputs[i].running_status) {
-				snprintf(what, sizeof what, "[output %s] retuning settings", was->outputs[i].name);
-				note_restart(d, what);
-			}
-			if (!same_connect(&was->outputs[i].connect, &now->outputs[i].connect)) {
-				snprintf(what, sizeof what, "[output %s] connect", was->outputs[i].name);
-				note_restart(d, what);
-			}
-		}
-	}
-}
-
-static void reload_failed(struct daemon *d, int id, const struct config_report *report)
-{
-	print_report_lines(report, LOG_LEVEL_ERROR);
-	log_print(LOG_LEVEL_ERROR, "reload of %s failed; still running the previous configuration",
-		  d->config_path);
-	notify_ready();
-	struct json_object *o = json_object_new_object();
-	json_object_object_add(o, "ok", json_object_new_boolean(false));
-	char text[CONFIG_PATH_MAX + 64];
-	snprintf(text, sizeof text, "reload of %s failed; still running the previous configuration",
-		 d->config_path);
-	json_object_object_add(o, "error", json_object_new_string(text));
-	struct json_object *lines = json_object_new_array();
-	const char *p = report->text, *end = report->text + report->length;
-	while (p < end) {
-		const char *nl = memchr(p, '\n', (size_t)(end - p));
-		if (!nl)
-			nl = end;
-		json_object_array_add(lines, json_object_new_string_len(p, (int)(nl - p)));
-		p = nl + 1;
-	}
-	json_object_object_add(o, "details", lines);
-	reply_json(d, id, o);
-}
-
-static void start_reload(struct daemon *d, int id)
-{
-	if (!d->config_path[0]) {
-		log_print(LOG_LEVEL_WARNING, "reload: started on the built-in defaults, there is no file to read");
-		reply_simple(d, id, false, "started on the built-in defaults: there is no config file to reload");
-		return;
-	}
-	if (d->reload_in_flight) {
-		reply_simple(d, id, false, "a reload is already in progress");
-		return;
-	}
-	notify_reloading();
-	log_print(LOG_LEVEL_INFO, "reload: reading %s", d->config_path);
-	struct config *cfg = malloc(sizeof *cfg);
-	struct tuning_set *set = malloc(sizeof *set);
-	struct config_report *report = malloc(sizeof *report);
-	if (!cfg || !set || !report) {
-		free(cfg);
-		free(set);
-		free(report);
-		log_print(LOG_LEVEL_ERROR, "reload: out of memory; still running the previous configuration");
-		reply_simple(d, id, false, "out of memory");
-		notify_ready();
-		return;
-	}
-	if (!config_load(d->config_path, cfg, report) ||
-	    (print_report_lines(report, LOG_LEVEL_WARNING), !tuning_set_build(cfg, set, report))) {
-		reload_failed(d, id, report);
-		free(cfg);
-		free(set);
-		free(report);
-		return;
-	}
-	print_report_lines(report, LOG_LEVEL_WARNING);
-	compare_for_restart(d, cfg);
-	free(cfg);
-	free(report);
-	struct request r = {.kind = REQUEST_TUNINGS, .id = id, .tunings = set};
-	if (!input_thread_post(d->in, &r)) {
-		tuning_set_free(set);
-		free(set);
-		reply_simple(d, id, false, "the MIDI thread is not taking requests");
-		notify_ready();
-		return;
-	}
-	d->reload_in_flight = true;
-	d->reload_client = id;
-}
-
-static void finish_reload(struct daemon *d, const struct reply *rep)
-{
-	d->reload_in_flight = false;
-	log_print(LOG_LEVEL_NOTICE, "reloaded %s: %s (sounding notes keep their tuning)",
-		  d->config_path, rep->text);
-	notify_ready();
-	notify_status("Reloaded: %s", rep->text);
-	struct json_object *o = json_object_new_object();
-	json_object_object_add(o, "ok", json_object_new_boolean(true));
-	char text[REPLY_TEXT_MAX + 64];
-	snprintf(text, sizeof text, "reloaded: %s", rep->text);
-	json_object_object_add(o, "message", json_object_new_string(text));
-	if (d->reload_notes[0]) {
-		char notes[sizeof d->reload_notes + 64];
-		snprintf(notes, sizeof notes, "not applied, needs a restart: %s", d->reload_notes);
-		json_object_object_add(o, "restart_needed", json_object_new_string(notes));
-	}
-	reply_json(d, d->reload_client, o);
-}
-
-/* ---- control requests ---------------------------------------------------- */
-
-static void post_or_fail(struct daemon *d, int id, const struct request *r)
-{
-	if (!input_thread_post(d->in, r))
-		reply_simple(d, id, false, "the MIDI thread is busy; try again");
-}
-
-static void on_request(void *context, int id, const char *line)
-{
-	struct daemon *d = context;
-	char arg[CONTROL_LINE_MAX] = "";
-	const struct control_command *c = control_command_parse(line, arg, sizeof arg);
-	enum control_kind kind = c ? c->kind : CONTROL_KIND_COUNT;
-
-	struct request r = {.id = id, .number = -1};
-	if (kind == CONTROL_STATUS) {
-		struct status_snapshot *s = malloc(sizeof *s);
-		if (!s) {
-			reply_simple(d, id, false, "out of memory");
-			return;
-		}
-		r.kind = REQUEST_SNAPSHOT;
-		r.snapshot = s;
-		if (!input_thread_post(d->in, &r)) {
-			free(s);
-			reply_simple(d, id, false, "the MIDI thread is busy; try again");
-		}
-	} else if (kind == CONTROL_PANIC) {
-		log_print(LOG_LEVEL_NOTICE, "panic requested over the control socket");
-		r.kind = REQUEST_PANIC;
-		post_or_fail(d, id, &r);
-	} else if (kind == CONTROL_PRESET) {
-		r.kind = REQUEST_PRESET;
-		size_t len = strlen(arg);
-		if (len >= sizeof r.name) {
-			reply_simple(d, id, false, "no preset has a name that long");
-			return;
-		}
-		memcpy(r.name, arg, len + 1);
-		if (!control_command_number(arg, &r.number))
-			r.number = -1;
-		post_or_fail(d, id, &r);
-	} else if (kind == CONTROL_ROOT) {
-		if (!control_command_number(arg, &r.number)) {
-			reply_simple(d, id, false, "root needs a number: 0 (home) or n (tone n-1 becomes 1/1)");
-			return;
-		}
-		r.kind = REQUEST_ROOT;
-		post_or_fail(d, id, &r);
-	} else if (kind == CONTROL_RELOAD) {
-		start_reload(d, id);
-	} else {
-		char quoted[80], text[sizeof quoted + 224], known[128];
-		snprintf(text, sizeof text, "unknown request '%s', expected %s",
-			 control_text_copy(quoted, sizeof quoted, line, 64),
-			 control_command_list(known, sizeof known));
-		reply_simple(d, id, false, text);
-	}
-}
-
-/* ---- replies from the input thread ---------------------------------------- */
-
-static void send_status(struct daemon *d, const struct reply *rep)
-{
-	struct snapshot_extra extra = {
-		.version = d->options->version,
-		.pid = (int)getpid(),
-		.uptime_seconds = (double)(monotonic_ms() - d->started_ms) / 1000.0,
-		.config = d->config_path[0] ? d->config_path : "(built-in defaults)",
-		.backend = d->backend->name,
-		.control_socket = d->control.path,
-	};
-	struct json_object *o = json_object_new_object();
-	json_object_object_add(o, "ok", json_object_new_boolean(true));
-	json_object_object_add(o, "status", snapshot_json(rep->snapshot, &extra));
-	reply_json(d, rep->id, o);
-	free(rep->snapshot);
-}
-
-static void handle_replies(struct daemon *d)
-{
-	struct reply rep;
-	while (input_thread_take_reply(d->in, &rep)) {
-		switch (rep.kind) {
-		case REPLY_DONE:
-			if (rep.request == REQUEST_TUNINGS) {
-				finish_reload(d, &rep);
-				break;
-			}
-			if (rep.ok && rep.request != REQUEST_PANIC)
-				log_print(LOG_LEVEL_INFO, "control: %s", rep.text);
-			reply_simple(d, rep.id, rep.ok, rep.text);
-			break;
-		case REPLY_SNAPSHOT:
-			send_status(d, &rep);
-			break;
-		case REPLY_RETIRED_TUNINGS:
-			tuning_set_free(rep.tunings);
-			free(rep.tunings);
-			break;
-		case REPLY_TUNING_STATE:
-			snprintf(d->state, sizeof d->state, "%s", rep.text);
-			log_print(LOG_LEVEL_INFO, "now playing %s", rep.text);
-			notify_status("Running: %s", rep.text);
-			break;
-		}
-	}
-}
-
-static void drain_logs(struct daemon *d)
-{
-	log_ring_drain(&d->in->log);
-	log_ring_drain(&d->out->log);
 }
 
 /* ---- watchdog --------------------------------------------------------------- */
@@ -459,7 +141,7 @@ static bool load_startup_config(struct daemon *d, struct config *cfg)
 	else
 		log_print(LOG_LEVEL_NOTICE, "no config at %s; using the built-in defaults",
 			  o->default_config_path);
-	print_report_lines(report, LOG_LEVEL_ERROR);
+	daemon_print_report_lines(report, LOG_LEVEL_ERROR);
 	free(report);
 	return ok;
 }
@@ -473,7 +155,7 @@ static bool build_startup_tunings(struct daemon *d)
 		return false;
 	}
 	bool ok = tuning_set_build(d->cfg, d->tunings, report);
-	print_report_lines(report, LOG_LEVEL_ERROR);
+	daemon_print_report_lines(report, LOG_LEVEL_ERROR);
 	free(report);
 	if (!ok) {
 		free(d->tunings);
@@ -522,15 +204,15 @@ static void stop_threads(struct daemon *d)
 	struct request quit = {.kind = REQUEST_QUIT, .id = -1};
 	const struct timespec pause = {0, 1000000};
 	while (!input_thread_post(d->in, &quit)) {
-		handle_replies(d);
+		daemon_handle_replies(d);
 		nanosleep(&pause, NULL);
 	}
 	pthread_join(d->in->thread, NULL);
 	output_thread_stop(d->out);
 	pthread_join(d->out->thread, NULL);
 	d->threads_running = false;
-	drain_logs(d);
-	handle_replies(d);
+	daemon_drain_logs(d);
+	daemon_handle_replies(d);
 	/* replies the thread could not queue are ours now that it has gone */
 	for (int i = 0; i < d->in->outbox_count; i++) {
 		struct reply *rep = &d->in->outbox[i];
@@ -604,17 +286,132 @@ static void main_loop(struct daemon *d)
 		if (ready > 0 && (fds[0].revents & POLLIN))
 			wake_fd_clear(d->main_wake_fd);
 		signal_panic(d);
-		drain_logs(d);
-		handle_replies(d);
+		daemon_drain_logs(d);
+		daemon_handle_replies(d);
 		/* every turn, polled or not: it also writes the replies just queued and closes idle clients */
-		control_server_service(&d->control, fds + 1, n - 1, on_request, d, monotonic_ms());
+		control_server_service(&d->control, fds + 1, n - 1, daemon_on_request, d, monotonic_ms());
 		if (reload_requested) {
 			reload_requested = 0;
 			log_print(LOG_LEVEL_INFO, "SIGHUP: reloading");
-			start_reload(d, -1);
+			daemon_start_reload(d, -1);
 		}
 		watchdog_tick(d);
 	}
+}
+
+/* The queues, eventfds and both threads' state, wired to each other. */
+static bool set_up_plumbing(struct daemon *d, char *err, size_t err_size)
+{
+	d->messages = malloc(sizeof *d->messages);
+	d->in = calloc(1, sizeof *d->in);
+	d->out = calloc(1, sizeof *d->out);
+	d->main_wake_fd = make_eventfd();
+	if (!d->messages || !d->in || !d->out || d->main_wake_fd < 0) {
+		snprintf(err, err_size, "cannot set up: %s", strerror(errno ? errno : ENOMEM));
+		return false;
+	}
+	msg_queue_init(d->messages);
+	output_thread_init(d->out);
+	d->in->wake_fd = make_eventfd();
+	d->out->wake_fd = make_eventfd();
+	if (d->in->wake_fd < 0 || d->out->wake_fd < 0) {
+		snprintf(err, err_size, "cannot make eventfds: %s", strerror(errno));
+		return false;
+	}
+	if (!input_thread_init(d->in, d->cfg, d->tunings, err, err_size))
+		return false;
+	d->watchdog_usec = notify_watchdog_usec();
+	d->in->heartbeat_ms = DEFAULT_HEARTBEAT_MS;
+	/* pings go every quarter period, each needing a fresh heartbeat: beat twice as often */
+	if (d->watchdog_usec && d->watchdog_usec / 8000 < (uint64_t)d->in->heartbeat_ms)
+		d->in->heartbeat_ms = (int)(d->watchdog_usec / 8000) > 0 ? (int)(d->watchdog_usec / 8000) : 1;
+	d->in->messages = d->messages;
+	d->in->output = d->out;
+	d->in->output_wake_fd = d->out->wake_fd;
+	d->in->main_wake_fd = d->main_wake_fd;
+	d->out->messages = d->messages;
+	d->out->main_wake_fd = d->main_wake_fd;
+	d->out->input_wake_fd = d->in->wake_fd;
+	d->out->output_count = d->cfg->output_count;
+	for (int i = 0; i < d->cfg->output_count; i++) {
+		snprintf(d->out->names[i], sizeof d->out->names[i], "%s", d->cfg->outputs[i].name);
+		d->out->running_status[i] = d->cfg->outputs[i].running_status && d->backend->byte_stream;
+	}
+	return true;
+}
+
+/* Opens the backend's ports with the input thread's callbacks. */
+static bool open_ports(struct daemon *d, char *err, size_t err_size)
+{
+	struct midi_io_spec spec;
+	config_io_spec(d->cfg, &spec);
+	struct midi_io_callbacks callbacks = input_thread_callbacks(d->in);
+	d->io = d->backend->open(&spec, &callbacks, err, err_size);
+	if (!d->io) {
+		if (!err[0])
+			snprintf(err, err_size, "the MIDI backend did not open");
+		return false;
+	}
+	d->in->backend = d->out->backend = d->backend;
+	d->in->io = d->out->io = d->io;
+	return true;
+}
+
+static bool open_control(struct daemon *d, char *err, size_t err_size)
+{
+	char path[CONTROL_PATH_MAX];
+	return !control_path_for_daemon(d->cfg->daemon.control_socket, path, sizeof path) ||
+	       control_server_open(&d->control, path, err, err_size);
+}
+
+static void announce_running(struct daemon *d)
+{
+	char ports[256] = "";
+	for (int i = 0; i < d->cfg->output_count; i++) {
+		size_t used = strlen(ports);
+		snprintf(ports + used, sizeof ports - used, "%s%s", i ? ", " : "", d->cfg->outputs[i].name);
+	}
+	log_print(LOG_LEVEL_NOTICE, "running: backend %s, config %s, outputs %s, control %s",
+		  d->backend->name, d->config_path[0] ? d->config_path : "(built-in defaults)", ports,
+		  d->control.listen_fd >= 0 ? d->control.path : "none");
+	notify_ready();
+	notify_status("Running: backend %s, outputs %s, preset %s", d->backend->name, ports,
+		      d->tunings->engine.presets[0].name);
+}
+
+/* The orderly stop; a second SIGINT from now on ends the process at once. */
+static void stop_after_signal(struct daemon *d)
+{
+	struct sigaction dfl;
+	memset(&dfl, 0, sizeof dfl);
+	dfl.sa_handler = SIG_DFL;
+	sigaction(SIGINT, &dfl, NULL);
+	sigset_t intr;
+	sigemptyset(&intr);
+	sigaddset(&intr, SIGINT);
+	pthread_sigmask(SIG_UNBLOCK, &intr, NULL);
+	notify_stopping();
+	log_print(LOG_LEVEL_NOTICE, "%s: ending every note and stopping",
+		  quit_requested == SIGINT ? "SIGINT" : "SIGTERM");
+	stop_threads(d);
+	log_print(LOG_LEVEL_NOTICE, "stopped");
+}
+
+/* Frees what set_up_plumbing made; the current tunings are ours again. */
+static void free_plumbing(struct daemon *d)
+{
+	if (d->in && d->in->wake_fd > 0)
+		close(d->in->wake_fd);
+	if (d->out && d->out->wake_fd > 0)
+		close(d->out->wake_fd);
+	if (d->main_wake_fd >= 0)
+		close(d->main_wake_fd);
+	free(d->messages);
+	/* the input thread gave back every retired set */
+	if (d->in && d->in->tunings)
+		d->tunings = d->in->tunings;
+	free(d->in);
+	free(d->out);
 }
 
 int daemon_run(const struct daemon_options *options)
@@ -631,108 +428,31 @@ int daemon_run(const struct daemon_options *options)
 	char err[512] = "";
 
 	d.cfg = malloc(sizeof *d.cfg);
-	if (!d.cfg || !load_startup_config(&d, d.cfg))
-		goto out_config;
-	if (!build_startup_tunings(&d))
+	if (!d.cfg || !load_startup_config(&d, d.cfg) || !build_startup_tunings(&d))
 		goto out_config;
 	const char *backend_name = options->backend ? options->backend : d.cfg->daemon.backend;
 	d.backend = choose_backend(backend_name, err, sizeof err);
-	if (!d.backend) {
+	if (!d.backend || !set_up_plumbing(&d, err, sizeof err)) {
 		log_print(LOG_LEVEL_ERROR, "%s", err);
-		goto out_tunings;
+		goto out_plumbing;
 	}
-
-	d.messages = malloc(sizeof *d.messages);
-	d.in = calloc(1, sizeof *d.in);
-	d.out = calloc(1, sizeof *d.out);
-	d.main_wake_fd = make_eventfd();
-	if (!d.messages || !d.in || !d.out || d.main_wake_fd < 0) {
-		log_print(LOG_LEVEL_ERROR, "cannot set up: %s", strerror(errno ? errno : ENOMEM));
-		goto out_memory;
-	}
-	msg_queue_init(d.messages);
-	output_thread_init(d.out);
-	d.in->wake_fd = make_eventfd();
-	d.out->wake_fd = make_eventfd();
-	if (d.in->wake_fd < 0 || d.out->wake_fd < 0) {
-		log_print(LOG_LEVEL_ERROR, "cannot make eventfds: %s", strerror(errno));
-		goto out_fds;
-	}
-	if (!input_thread_init(d.in, d.cfg, d.tunings, err, sizeof err)) {
+	if (!open_ports(&d, err, sizeof err)) {
 		log_print(LOG_LEVEL_ERROR, "%s", err);
-		goto out_fds;
+		goto out_plumbing;
 	}
-	d.watchdog_usec = notify_watchdog_usec();
-	d.in->heartbeat_ms = DEFAULT_HEARTBEAT_MS;
-	/* pings go every quarter period, each needing a fresh heartbeat: beat twice as often */
-	if (d.watchdog_usec && d.watchdog_usec / 8000 < (uint64_t)d.in->heartbeat_ms)
-		d.in->heartbeat_ms = (int)(d.watchdog_usec / 8000) > 0 ? (int)(d.watchdog_usec / 8000) : 1;
-	d.in->messages = d.messages;
-	d.in->output = d.out;
-	d.in->output_wake_fd = d.out->wake_fd;
-	d.in->main_wake_fd = d.main_wake_fd;
-	d.out->messages = d.messages;
-	d.out->main_wake_fd = d.main_wake_fd;
-	d.out->input_wake_fd = d.in->wake_fd;
-	d.out->output_count = d.cfg->output_count;
-	for (int i = 0; i < d.cfg->output_count; i++) {
-		snprintf(d.out->names[i], sizeof d.out->names[i], "%s", d.cfg->outputs[i].name);
-		d.out->running_status[i] = d.cfg->outputs[i].running_status && d.backend->byte_stream;
-	}
-
-	struct midi_io_spec spec;
-	config_io_spec(d.cfg, &spec);
-	struct midi_io_callbacks callbacks = input_thread_callbacks(d.in);
-	d.io = d.backend->open(&spec, &callbacks, err, sizeof err);
-	if (!d.io) {
-		log_print(LOG_LEVEL_ERROR, "%s", err[0] ? err : "the MIDI backend did not open");
-		goto out_fds;
-	}
-	d.in->backend = d.out->backend = d.backend;
-	d.in->io = d.out->io = d.io;
-
-	char path[CONTROL_PATH_MAX];
-	if (control_path_for_daemon(d.cfg->daemon.control_socket, path, sizeof path) &&
-	    !control_server_open(&d.control, path, err, sizeof err)) {
+	if (!open_control(&d, err, sizeof err)) {
 		log_print(LOG_LEVEL_ERROR, "%s", err);
 		goto out_backend;
 	}
 	if (d.cfg->daemon.lock_memory)
 		realtime_lock_memory();
-
 	install_signals(&d);
 	if (!start_threads(&d))
 		goto out_control;
-
-	drain_logs(&d);
-	char ports[256] = "";
-	for (int i = 0; i < d.cfg->output_count; i++) {
-		size_t used = strlen(ports);
-		snprintf(ports + used, sizeof ports - used, "%s%s", i ? ", " : "", d.cfg->outputs[i].name);
-	}
-	log_print(LOG_LEVEL_NOTICE, "running: backend %s, config %s, outputs %s, control %s",
-		  d.backend->name, d.config_path[0] ? d.config_path : "(built-in defaults)", ports,
-		  d.control.listen_fd >= 0 ? d.control.path : "none");
-	notify_ready();
-	notify_status("Running: backend %s, outputs %s, preset %s", d.backend->name, ports,
-		      d.tunings->engine.presets[0].name);
-
+	daemon_drain_logs(&d);
+	announce_running(&d);
 	main_loop(&d);
-
-	/* a second SIGINT from now on ends the process at once */
-	struct sigaction dfl;
-	memset(&dfl, 0, sizeof dfl);
-	dfl.sa_handler = SIG_DFL;
-	sigaction(SIGINT, &dfl, NULL);
-	sigset_t intr;
-	sigemptyset(&intr);
-	sigaddset(&intr, SIGINT);
-	pthread_sigmask(SIG_UNBLOCK, &intr, NULL);
-	notify_stopping();
-	log_print(LOG_LEVEL_NOTICE, "%s: ending every note and stopping",
-		  quit_requested == SIGINT ? "SIGINT" : "SIGTERM");
-	stop_threads(&d);
-	log_print(LOG_LEVEL_NOTICE, "stopped");
+	stop_after_signal(&d);
 	status = 0;
 
 out_control:
@@ -741,25 +461,11 @@ out_backend:
 	if (d.threads_running)
 		stop_threads(&d);
 	d.backend->close(d.io);
-out_fds:
-	if (d.in->wake_fd > 0)
-		close(d.in->wake_fd);
-	if (d.out->wake_fd > 0)
-		close(d.out->wake_fd);
-out_memory:
-	if (d.main_wake_fd >= 0)
-		close(d.main_wake_fd);
-	free(d.messages);
-	/* the input thread gave back every retired set; the current one is ours again */
-	if (d.in && d.in->tunings)
-		d.tunings = d.in->tunings;
-	free(d.in);
-	free(d.out);
-out_tunings:
+out_plumbing:
+	free_plumbing(&d);
 	if (d.tunings) {
-		struct tuning_set *current = d.tunings;
-		tuning_set_free(current);
-		free(current);
+		tuning_set_free(d.tunings);
+		free(d.tunings);
 	}
 out_config:
 	free(d.cfg);
