@@ -10,8 +10,12 @@
  *               M slots in keyboard period floor(i / M); a slot is silent
  *               or names a tone and a period shift;
  *   nearest     every tone, in every period MIDI can sound, goes to the
- *               12-TET key nearest its pitch; a taken key pushes it to the
- *               next free key above; keys nobody claims are silent.
+ *               12-TET key nearest its pitch; when lower tones already
+ *               hold that key, it goes to the free key just above them, or
+ *               they move down onto the free key just below them and it
+ *               takes the last of theirs, whichever keeps the keys nearer
+ *               their pitches in all (keys stay in pitch order); keys
+ *               nobody claims are silent.
  * Transposition moves the finished map up by whole keys: key k plays what
  * key k - transpose played.
  *
