@@ -43,8 +43,10 @@ def main():
     period = Fraction(doc["lattice"]["period"])
     unison = Fraction(1)
     if doc["lattice"]["unison"] is not None:
-        # the named product (seeds joined by '.') becomes 1/1
-        unison = math.prod(Fraction(s) for s in doc["lattice"]["unison"].split("."))
+        # the named product (seeds joined by '.', a ratio seed in
+        # parentheses: our label syntax) becomes 1/1
+        unison = math.prod(Fraction(s.strip("()"))
+                           for s in doc["lattice"]["unison"].split("."))
     products = sorted(set(reduce_into(math.prod(c) / unison, period)
                           for c in itertools.combinations(seeds, k)))
     tones = doc["tones"]
