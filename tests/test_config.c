@@ -273,6 +273,10 @@ static void input_output_control_keys(void **state)
 	assert_int_equal(zone->engine.bend_range, 48);
 	assert_int_equal(zone->engine.mpe_zone, MPE_ZONE_UPPER);
 	assert_int_equal(zone->engine.mpe_members, 7);
+	/* an mpe output's notes go to every member but 10 unless channels says
+	 * otherwise, so a drum track on 10 passes through (our rule) */
+	assert_int_equal(zone->engine.channels, 0xFDFF);
+	assert_int_equal(fs->engine.channels, 0xFDFE);
 	struct engine_spec spec;
 	config_engine_spec(&cfg, 0, &spec);
 	assert_int_equal(spec.output.method, RETUNE_MTS);

@@ -325,6 +325,10 @@ static void cross_check(struct interp *in)
 		/* the default follows the method: MPE 1.0 section 2.4 says 48 for members */
 		if (config_line_of(&o->lines, "output", "bend_range") == 0)
 			spec->bend_range = spec->method == RETUNE_MPE ? 48 : 2;
+		/* every member of the zone but 10, which stays free for a drum
+		 * track passed through, as the bend pool's 2-16 leaves it */
+		if (spec->method == RETUNE_MPE && config_line_of(&o->lines, "output", "channels") == 0)
+			spec->channels = (uint16_t)(0xFFFFu & ~(1u << 9));
 		int outputs = __builtin_popcount(spec->channels);
 		if (spec->method == RETUNE_MTS && outputs < inputs)
 			fail(in, o->line,
