@@ -326,6 +326,10 @@ bool engine_note_at(const struct engine *e, int n, struct engine_note_info *out)
 uint32_t engine_serial(const struct engine *e);
 const struct engine_stats *engine_stats(const struct engine *e);
 
+/* The output channels notes go to under this spec (the bend pool, the mts
+ * channels, the mpe members the channels name); 0 if the spec is refused. */
+uint16_t engine_note_channels(const struct engine_spec *spec);
+
 const char *retune_method_name(enum retune_method method);
 /* Does the method's pitch bend carry each note's retune (bend, mpe), or
  * only the player's wheel (mts: the tuning is in the synth's table)? */

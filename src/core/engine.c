@@ -40,6 +40,15 @@ bool retune_method_bends_notes(enum retune_method method)
 	return m && m->bend_carries_retune;
 }
 
+uint16_t engine_note_channels(const struct engine_spec *spec)
+{
+	const struct engine_method *m = method_of(spec->output.method);
+	struct engine_channels plan;
+	struct core_error err;
+	memset(&plan, 0, sizeof plan);
+	return m && m->plan(spec, &plan, &err) ? plan.pool : 0;
+}
+
 /* ---- the tuning table ---------------------------------------------------- */
 
 static const struct engine_preset *current_preset(const struct engine *e)

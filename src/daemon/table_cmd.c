@@ -174,6 +174,17 @@ static void print_chords(FILE *f, const struct lattice *lat, int label_width)
 	}
 }
 
+/* The channels of output o: for mpe the members its channels name, which
+ * notes go to; for bend and mts the list notes are given channels from. */
+static uint16_t output_channels(const struct config *cfg, int o)
+{
+	if (cfg->outputs[o].engine.method != RETUNE_MPE)
+		return cfg->outputs[o].engine.channels;
+	struct engine_spec spec;
+	config_engine_spec(cfg, o, &spec);
+	return engine_note_channels(&spec);
+}
+
 static void print_outputs(FILE *f, const struct config *cfg, const struct keymap_spec *keys)
 {
 	fprintf(f, "\nkeys     layout %s", key_layout_name(keys->layout));
@@ -187,7 +198,11 @@ static void print_outputs(FILE *f, const struct config *cfg, const struct keymap
 		char chans[64];
 		fprintf(f, "output   %s: %s on channels %s", out->name,
 			retune_method_name(out->engine.method),
-			config_format_channels(out->engine.channels, chans, sizeof chans));
+			config_format_channels(output_channels(cfg, o), chans, sizeof chans));
+		if (out->engine.method == RETUNE_MPE)
+			fprintf(f, ", %s zone of %d members (master channel %d)",
+				out->engine.mpe_zone == MPE_ZONE_LOWER ? "lower" : "upper",
+				out->engine.mpe_members, out->engine.mpe_zone == MPE_ZONE_LOWER ? 1 : 16);
 		if (output_uses_bend(out))
 			fprintf(f, ", bend range +-%d semitones", out->engine.bend_range);
 		if (out->engine.method == RETUNE_MTS)
@@ -344,8 +359,9 @@ static struct json_object *json_outputs(const struct config *cfg)
 		json_object_object_add(jo, "name", json_object_new_string(out->name));
 		json_object_object_add(jo, "method", json_object_new_string(retune_method_name(out->engine.method)));
 		struct json_object *chans = json_object_new_array();
+		uint16_t used = output_channels(cfg, o);
 		for (int ch = 0; ch < 16; ch++)
-			if (out->engine.channels & (1u << ch))
+			if (used & (1u << ch))
 				json_object_array_add(chans, json_object_new_int(ch + 1));
 		json_object_object_add(jo, "channels", chans);
 		json_object_object_add(jo, "bend_range", json_object_new_int(out->engine.bend_range));
