@@ -159,8 +159,12 @@ static struct output_config *output_for(struct interp *in, const struct config_e
 		return NULL;
 	struct config *cfg = in->cfg;
 	int i = config_find_output(cfg, name);
-	if (i >= 0)
+	if (i >= 0) {
+		if (e->key[0] == '\0')
+			fail(in, e->line, "[output %s] is already on line %d, expected each output once (all its keys in one section)",
+			     name, cfg->outputs[i].line);
 		return &cfg->outputs[i];
+	}
 	if (cfg->output_count >= CONFIG_MAX_OUTPUTS) {
 		refuse_section(in, e, "output", name, &in->outputs_refused, &in->output_refused_line);
 		return NULL;
@@ -179,8 +183,18 @@ static struct preset_config *preset_for(struct interp *in, const struct config_e
 		return NULL;
 	struct config *cfg = in->cfg;
 	int i = config_find_preset(cfg, name);
-	if (i >= 0)
+	if (i == 0) {
+		if (e->key[0] == '\0')
+			fail(in, e->line, "[preset %s]: '%s' is the name of the main tuning ([lattice], [pitch] and [keys]), expected another name",
+			     name, name);
+		return NULL;
+	}
+	if (i > 0) {
+		if (e->key[0] == '\0')
+			fail(in, e->line, "[preset %s] is already on line %d, expected each preset once (all its keys in one section)",
+			     name, cfg->presets[i].line);
 		return &cfg->presets[i];
+	}
 	if (cfg->preset_count >= CONFIG_MAX_PRESETS) {
 		refuse_section(in, e, "preset", name, &in->presets_refused, &in->preset_refused_line);
 		return NULL;
