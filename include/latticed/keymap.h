@@ -84,6 +84,14 @@ const char *key_layout_name(enum key_layout layout);
 bool keymap_build(struct keymap *out, const struct lattice *lat,
 		  const struct keymap_spec *spec, struct core_error *err);
 
+/*
+ * Moves every sounding key's pitch by `cents` (a re-rooting: see
+ * retune_root_shift), keeping its tone and period, as the engine's
+ * retune table does: a key that leaves MIDI's range becomes out of range,
+ * and keys silent or out of range before stay so.
+ */
+void keymap_shift(struct keymap *map, double cents);
+
 /* Cents of the period: the pitch distance between period p and p + 1. */
 double keymap_period_cents(const struct lattice *lat);
 

@@ -208,3 +208,14 @@ bool keymap_build(struct keymap *out, const struct lattice *lat,
 	*out = map;
 	return true;
 }
+
+void keymap_shift(struct keymap *map, double cents)
+{
+	for (int key = 0; key < KEYMAP_KEYS; key++) {
+		struct key_pitch *k = &map->keys[key];
+		if (k->state != KEY_SOUNDING)
+			continue;
+		map->sounding_count--;
+		place(map, key, k->tone, k->period, k->note + cents / 100.0);
+	}
+}

@@ -520,3 +520,14 @@ int config_find_preset(const struct config *cfg, const char *name)
 			return i;
 	return -1;
 }
+
+int config_find_preset_or_number(const struct config *cfg, const char *text)
+{
+	int by_name = config_find_preset(cfg, text);
+	if (by_name >= 0)
+		return by_name;
+	long n;
+	if (!value_whole(text, 0, CONFIG_MAX_PRESETS, &n))
+		return -1;
+	return n < cfg->preset_count ? (int)n : -1;
+}

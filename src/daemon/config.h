@@ -132,5 +132,8 @@ void config_io_spec(const struct config *cfg, struct midi_io_spec *out);
 /* Index of the output or preset with this name, or -1. */
 int config_find_output(const struct config *cfg, const char *name);
 int config_find_preset(const struct config *cfg, const char *name);
+/* A preset by name, or by number (0 is the main tuning), as `latticed
+ * preset` takes it; -1 if neither. */
+int config_find_preset_or_number(const struct config *cfg, const char *text);
 
 #endif

@@ -270,6 +270,17 @@ bool tuning_build(const struct config *cfg, int preset, struct tuning *out,
 	return true;
 }
 
+int tuning_root_slot(const struct lattice *lat, const char *text)
+{
+	if (strcmp(text, "home") == 0)
+		return 0;
+	long n;
+	if (value_whole(text, 0, LATTICE_MAX_TONES, &n))
+		return n <= lat->tone_count ? (int)n : -1;
+	int tone = lattice_find_tone(lat, text);
+	return tone >= 0 ? tone + 1 : -1;
+}
+
 bool tuning_set_build(const struct config *cfg, struct tuning_set *out,
 		      struct config_report *report)
 {
