@@ -149,6 +149,7 @@ struct engine_note_info {
 	bool ringing;                        /* released, held by a pedal */
 	uint32_t started;                    /* engine_serial() just after it began */
 	int preset;                          /* index into the tunings it began under */
+	int root;                            /* the root slot it began under (0 = home) */
 	int tone, period;                    /* its tone of that preset's lattice */
 	double pitch;                        /* exact pitch as a note number */
 };
@@ -176,7 +177,7 @@ struct engine_note {
 	bool sostenuto_latched;
 	uint32_t started;
 	double note;                     /* exact pitch as a note number */
-	int16_t preset, tone, period;
+	int16_t preset, root, tone, period;
 };
 
 struct engine_out_channel {

@@ -302,6 +302,7 @@ static void note_on(struct engine *e, uint8_t source, int ch, int key, uint8_t v
 	n->started = ++e->serial;
 	n->note = rk->note;
 	n->preset = (int16_t)e->preset;
+	n->root = (int16_t)e->root_slot;
 	n->tone = rk->tone;
 	n->period = rk->period;
 	engine_bit_put(e->note_used, index, true);
@@ -572,6 +573,7 @@ bool engine_note_at(const struct engine *e, int n, struct engine_note_info *out)
 		out->ringing = note->phase == NOTE_RINGING;
 		out->started = note->started;
 		out->preset = note->preset;
+		out->root = note->root;
 		out->tone = note->tone;
 		out->period = note->period;
 		out->pitch = note->note;
