@@ -14,6 +14,7 @@
 #include "cli_common.h"
 #include "config.h"
 #include "control_cmd.h"
+#include "connect_cmd.h"
 #include "control_commands.h"
 #include "daemon.h"
 #include "draw_cmd.h"
@@ -319,6 +320,7 @@ static const struct command commands[] = {
 	{.control = &control_commands[CONTROL_ROOT]},
 	{.control = &control_commands[CONTROL_RELOAD]},
 	{"ports", command_ports, "list the MIDI ports latticed can connect to", NULL},
+	{"connect", connect_command, "connect two MIDI ports by name (ALSA sequencer)", NULL},
 	{"table", command_table, "print the lattice, its chords and the key map", NULL},
 	{"render", command_render, "retune a MIDI file", NULL},
 	{"draw", command_draw, "draw the lattice or a keyboard chart as SVG", NULL},
