@@ -27,7 +27,7 @@ int cli_load_config(const char *path, const char *default_path, struct config *c
 
 void cli_config_name(const struct config *cfg, const char *default_path, char *buf, size_t size)
 {
-	bool defaults = strcmp(cfg->path, "(built-in defaults)") == 0;
+	bool defaults = strcmp(cfg->path, CONFIG_BUILTIN_NAME) == 0;
 	if (defaults && access(default_path, F_OK) != 0)
 		snprintf(buf, size, "(built-in defaults: there is no %s)", default_path);
 	else

@@ -63,7 +63,7 @@ static void output_defaults(struct output_config *out, const char *name)
 void config_defaults(struct config *out)
 {
 	memset(out, 0, sizeof *out);
-	text_copy(out->path, sizeof out->path, "(built-in defaults)");
+	text_copy(out->path, sizeof out->path, CONFIG_BUILTIN_NAME);
 	out->preset_count = 1;
 	text_copy(out->presets[0].name, sizeof out->presets[0].name, "main");
 	config_keys_defaults("preset", &out->presets[0]);

@@ -38,6 +38,8 @@
 #define CONFIG_MAX_PRESETS ENGINE_MAX_PRESETS
 #define CONFIG_NAME_MAX ENGINE_NAME_MAX
 #define CONFIG_PATH_MAX 512
+/* The path a config read from no file carries (config_defaults). */
+#define CONFIG_BUILTIN_NAME "(built-in defaults)"
 #define CONFIG_MAP_TEXT_MAX 2048
 #define CONFIG_BACKEND_MAX 16
 #define CONFIG_FILE_MAX (1 << 20)

@@ -236,7 +236,7 @@ static void print_status(struct json_object *st)
 	struct json_object *up = member(st, "uptime_seconds");
 	print_duration(up ? json_object_get_double(up) : 0);
 	printf(", backend %s\n", str(st, "backend"));
-	if (strcmp(str(st, "config"), "(built-in defaults)") == 0 && *str(st, "default_config"))
+	if (strcmp(str(st, "config"), CONFIG_BUILTIN_NAME) == 0 && *str(st, "default_config"))
 		printf("config:  (built-in defaults: there is no %s)\n", str(st, "default_config"));
 	else
 		printf("config:  %s\n", str(st, "config"));

@@ -45,10 +45,12 @@ int table_write_syx(const struct table_view *v, const struct table_syx *syx)
 	char device[16] = "all devices";
 	if (syx->device != TUNING_DUMP_ALL_DEVICES)
 		snprintf(device, sizeof device, "device %u", syx->device);
-	printf("%s: %s, tuning program %u, %s, %zu bytes; preset %s, %d keys retuned, the others 12-TET\n",
+	char root[LATTICE_LABEL_MAX], ratio[RATIO_TEXT_MAX];
+	table_root_text(v, root, sizeof root, ratio, sizeof ratio);
+	printf("%s: %s, tuning program %u, %s, %zu bytes; preset %s, root %s, %d keys retuned, the others 12-TET\n",
 	       syx->path,
 	       syx->form == TUNING_DUMP_BULK ? "MTS bulk tuning dump" : "MTS single-note tuning changes (2 messages)",
-	       syx->program, device, length, v->cfg->presets[v->preset].name,
+	       syx->program, device, length, v->cfg->presets[v->preset].name, root,
 	       v->tuning->keymap.sounding_count);
 	if (syx->form == TUNING_DUMP_BULK && strlen(name) > TUNING_DUMP_NAME_MAX)
 		printf("  name cut to 16 characters: '%.16s'\n", name);
