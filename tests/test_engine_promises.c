@@ -1,5 +1,6 @@
 /*
- * The engine's four promises on long seeded random performances, for
+ * The engine's four promises (our rules: engine.h, README) on long seeded
+ * random performances, for
  * every method (LATTICED_ENGINE_EVENTS sets the length, default 10^6
  * events; LATTICED_ENGINE_SEED shifts every scenario's seed, for longer
  * runs with fresh streams), judged by the independent synth model in

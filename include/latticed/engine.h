@@ -149,6 +149,7 @@ struct engine_note_info {
 	bool ringing;                        /* released, held by a pedal */
 	uint32_t started;                    /* engine_serial() just after it began */
 	int preset;                          /* index into the tunings it began under */
+	int root;                            /* the root slot it began under (0 = home) */
 	int tone, period;                    /* its tone of that preset's lattice */
 	double pitch;                        /* exact pitch as a note number */
 };
@@ -176,7 +177,7 @@ struct engine_note {
 	bool sostenuto_latched;
 	uint32_t started;
 	double note;                     /* exact pitch as a note number */
-	int16_t preset, tone, period;
+	int16_t preset, root, tone, period;
 };
 
 struct engine_out_channel {
@@ -325,6 +326,10 @@ bool engine_note_at(const struct engine *e, int n, struct engine_note_info *out)
  * started <= a serial read earlier began before that read. */
 uint32_t engine_serial(const struct engine *e);
 const struct engine_stats *engine_stats(const struct engine *e);
+
+/* The output channels notes go to under this spec (the bend pool, the mts
+ * channels, the mpe members the channels name); 0 if the spec is refused. */
+uint16_t engine_note_channels(const struct engine_spec *spec);
 
 const char *retune_method_name(enum retune_method method);
 /* Does the method's pitch bend carry each note's retune (bend, mpe), or

@@ -40,6 +40,15 @@ bool retune_method_bends_notes(enum retune_method method)
 	return m && m->bend_carries_retune;
 }
 
+uint16_t engine_note_channels(const struct engine_spec *spec)
+{
+	const struct engine_method *m = method_of(spec->output.method);
+	struct engine_channels plan;
+	struct core_error err;
+	memset(&plan, 0, sizeof plan);
+	return m && m->plan(spec, &plan, &err) ? plan.pool : 0;
+}
+
 /* ---- the tuning table ---------------------------------------------------- */
 
 static const struct engine_preset *current_preset(const struct engine *e)
@@ -293,6 +302,7 @@ static void note_on(struct engine *e, uint8_t source, int ch, int key, uint8_t v
 	n->started = ++e->serial;
 	n->note = rk->note;
 	n->preset = (int16_t)e->preset;
+	n->root = (int16_t)e->root_slot;
 	n->tone = rk->tone;
 	n->period = rk->period;
 	engine_bit_put(e->note_used, index, true);
@@ -563,6 +573,7 @@ bool engine_note_at(const struct engine *e, int n, struct engine_note_info *out)
 		out->ringing = note->phase == NOTE_RINGING;
 		out->started = note->started;
 		out->preset = note->preset;
+		out->root = note->root;
 		out->tone = note->tone;
 		out->period = note->period;
 		out->pitch = note->note;

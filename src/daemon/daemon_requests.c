@@ -104,6 +104,7 @@ static void send_status(struct daemon *d, const struct reply *rep)
 		.pid = (int)getpid(),
 		.uptime_seconds = (double)(monotonic_ms() - d->started_ms) / 1000.0,
 		.config = d->config_path[0] ? d->config_path : "(built-in defaults)",
+		.default_config = d->options->default_config_path,
 		.backend = d->backend->name,
 		.control_socket = d->control.path,
 	};

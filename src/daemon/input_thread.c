@@ -434,6 +434,7 @@ static void fill_snapshot(struct input_thread *t, struct status_snapshot *s)
 					lattice_label(&p->lattice->spec, tone->seeds, sn->label, sizeof sn->label);
 					ratio_format(tone->ratio, sn->ratio, sizeof sn->ratio);
 					sn->cents = tone->cents;
+					snapshot_note_sounds(sn, p, &n);
 				}
 			}
 		}
