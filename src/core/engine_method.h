@@ -174,6 +174,13 @@ void engine_release_note(struct engine *e, int index, uint8_t velocity);
 /* Ends the ringing notes of global input channel g that no pedal holds now. */
 void engine_settle_ringing(struct engine *e, int g);
 
+/* ---- the player's controls of the tuning (engine_steer.c) ------------------- */
+
+void engine_steer_init(struct engine *e);
+/* Acts on m if it steers (true: taken, it plays nothing); every message on
+ * the control channel is taken. */
+bool engine_steer_message(struct engine *e, const struct midi_msg *m);
+
 /* ---- the methods' shared parts -------------------------------------------------- */
 
 /* Bend and mpe: a free channel with the right bend, else the one freed
