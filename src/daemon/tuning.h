@@ -35,7 +35,8 @@ struct tuning_set {
 bool tuning_build(const struct config *cfg, int preset, struct tuning *out,
 		  struct config_report *report);
 
-/* Builds every preset (allocates); false with errors in report. */
+/* Builds every preset (allocates) and checks the runs of reserved keys
+ * against them (config_control.h); false with errors in report. */
 bool tuning_set_build(const struct config *cfg, struct tuning_set *out,
 		      struct config_report *report);
 void tuning_set_free(struct tuning_set *set);
