@@ -188,6 +188,8 @@ struct engine_control_miss {
 	uint8_t channel;             /* 0..15, where it came from */
 	uint8_t number, value;       /* controller, key or program; the controller's value */
 	int preset, root;            /* where the engine stayed */
+	char preset_name[ENGINE_NAME_MAX];
+	int presets, tones;          /* how many presets, and tones in that preset */
 	uint32_t count;              /* misses since the last take, this one among them */
 };
 

@@ -126,11 +126,15 @@ static void missed(struct engine *e, enum engine_miss_kind kind, enum engine_act
 		   const struct midi_msg *m)
 {
 	uint32_t count = e->miss_pending ? e->miss.count + 1 : 1;
+	const struct engine_preset *p = &e->tunings->presets[e->preset];
 	e->miss = (struct engine_control_miss){
 		.kind = kind, .action = action, .channel = (uint8_t)midi_msg_channel(m),
 		.number = m->data[0], .value = m->data[1], .preset = e->preset,
-		.root = e->root_slot, .count = count,
+		.root = e->root_slot, .presets = e->tunings->count,
+		.tones = p->lattice->tone_count, .count = count,
 	};
+	memcpy(e->miss.preset_name, p->name, sizeof e->miss.preset_name);
+	e->miss.preset_name[sizeof e->miss.preset_name - 1] = '\0';
 	e->miss_pending = true;
 	engine_notice(e, NOTICE_CONTROL_MISSED);
 }
