@@ -17,7 +17,8 @@ there), never by latticed's own code.  Scenarios:
   - `latticed root` by tone label and `home`, errors listing the labels;
   - `reload` says what it kept: the root, the preset, or neither;
   - the state file: a daemon killed mid-show comes back in its preset and
-    root; a corrupt, stale or foreign file is ignored with one log line.
+    root; a corrupt, stale or foreign file is ignored with one log line;
+  - `latticed render` warns of control messages that select nothing.
 
 Sources: MIDI 1.0 (status bytes, velocity 0 = note-off, switch controllers
 read 0-63 off and 64-127 on; from memory for the last), the published CPS
@@ -324,7 +325,33 @@ def state_file():
         d.close()
 
 
+# ---- render: the same rule offline ----------------------------------------------
+
+def render_misses():
+    """A file whose program changes on the control channel name presets that
+    do not exist: render says so once, with the count (our rule).  The file
+    is a Standard MIDI File 1.0 format 0: MThd (length 6, format 0, one
+    track, 96 ticks per quarter), one MTrk, delta times as single bytes."""
+    import struct
+    import tempfile
+    tmp = tempfile.mkdtemp(prefix="latticed-render-")
+    conf = os.path.join(tmp, "r.conf")
+    with open(conf, "w") as f:
+        f.write("[control]\nchannel = 16\n\n[preset dekany]\nseeds = 1 3 5 7 9\n")
+    events = bytes([0, 0xCF, 9, 0, 0xCF, 5, 0, 0x90, 60, 90, 96, 0x80, 60, 0, 0, 0xFF, 0x2F, 0])
+    smf = b"MThd" + struct.pack(">IHHH", 6, 0, 1, 96) + b"MTrk" + struct.pack(">I", len(events)) + events
+    with open(os.path.join(tmp, "in.mid"), "wb") as f:
+        f.write(smf)
+    r = subprocess.run([BIN, "render", "--config", conf, os.path.join(tmp, "in.mid"),
+                        os.path.join(tmp, "out.mid")], capture_output=True, text=True, timeout=60)
+    want = ("warning: control: program change 5 on channel 16 (program_change) selects nothing: "
+            "there are 2 presets, 0 to 1; still on preset main (2 such messages in the file)")
+    check(r.returncode == 0 and want in r.stderr, "render warns of program changes that select nothing (%s)"
+          % r.stderr.strip())
+
+
 def main():
+    render_misses()
     midi_panic()
     playing_channel()
     root_and_reload()

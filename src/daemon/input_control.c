@@ -46,7 +46,11 @@ void input_control_report(struct input_thread *t)
 		return;
 	char line[LOG_RECORD_TEXT];
 	notice_text_control_miss(&miss, &engine_spec_of(first)->control, line, sizeof line);
-	log_ring_post(&t->log, LOG_LEVEL_WARNING, "%s", line);
+	if (miss.count > 1)
+		log_ring_post(&t->log, LOG_LEVEL_WARNING, "%s (%u times since the last such line)", line,
+			      miss.count);
+	else
+		log_ring_post(&t->log, LOG_LEVEL_WARNING, "%s", line);
 	t->miss_logged_ms = now;
 	t->wake_main = true;
 }

@@ -74,7 +74,7 @@ static void what_came(const struct engine_control_miss *m, bool is_cc, char *buf
 void notice_text_control_miss(const struct engine_control_miss *m,
 			      const struct engine_control_spec *c, char *buf, size_t size)
 {
-	char came[64], why[160], more[48] = "";
+	char came[64], why[160];
 	bool is_cc = m->kind == ENGINE_MISS_PRESET_CC || m->kind == ENGINE_MISS_ROOT_CC ||
 		     (m->kind == ENGINE_MISS_STEP_END && (unsigned)m->action < ENGINE_ACTION_COUNT &&
 		      c->actions[m->action].kind == ENGINE_BINDING_CC);
@@ -111,7 +111,5 @@ void notice_text_control_miss(const struct engine_control_miss *m,
 		break;
 	}
 	}
-	if (m->count > 1)
-		snprintf(more, sizeof more, " (%u times since the last such line)", m->count);
-	snprintf(buf, size, "control: %s (%s) selects nothing: %s%s", came, by, why, more);
+	snprintf(buf, size, "control: %s (%s) selects nothing: %s", came, by, why);
 }

@@ -28,7 +28,8 @@ void notice_text_lines(uint32_t notices, const struct engine_stats *stats, int b
 
 /* One line for a control message that selected nothing (NOTICE_CONTROL_MISSED,
  * engine_take_control_miss): what came, why nothing, where it stayed; c
- * says what each controller and key is bound to. */
+ * says what each controller and key is bound to.  The count is the
+ * caller's to add. */
 void notice_text_control_miss(const struct engine_control_miss *m,
 			      const struct engine_control_spec *c, char *buf, size_t size);
 
