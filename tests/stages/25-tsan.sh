@@ -1,5 +1,5 @@
 # The daemon's threads under ThreadSanitizer: the queue tests (two threads,
-# 10^6 items), the end-to-end daemon test and the burst attacks
+# 10^6 items), the end-to-end daemon tests (daemon, daemon_control) and the burst attacks
 # (tests/attack/burst_*).  Any data race fails them.
 . "$LATTICED_SOURCE_DIR/tests/stages/lib.sh"
 apt_install $BUILD_PACKAGES
