@@ -9,10 +9,15 @@
 #include <stdio.h>
 #include <string.h>
 
-/* The key of each action, in enum engine_action order. */
+/* The key of each action, in enum engine_action order (the rows in config_keys.c). */
 static const char *const action_keys[ENGINE_ACTION_COUNT] = {
 	"preset_next", "preset_previous", "root_next", "root_previous", "root_home", "panic",
 };
+
+const char *config_action_key(int action)
+{
+	return action >= 0 && action < ENGINE_ACTION_COUNT ? action_keys[action] : "?";
+}
 
 /* One setting that takes a controller or a run of keys. */
 struct claim {

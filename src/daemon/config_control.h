@@ -17,6 +17,9 @@
 
 #include "config.h"
 
+/* The config key that binds an action (enum engine_action): "preset_next", ... */
+const char *config_action_key(int action);
+
 /* Checks the controllers; also sets program_change's default for
  * channel = playing (ignore, so program changes still reach the synth).
  * Returns the number of errors reported. */

@@ -207,7 +207,10 @@ static const struct config_word control_channels[] = {
 };
 static const struct config_word step_ends[] = {{"stop", 0}, {"wrap", 1}, {NULL, 0}};
 
-#define BINDING_HELP "none, cc N (a controller from 0 to 119; cc N latching for a latching pedal) or key N (a key from 0 to 127)"
+/* a step, home or the panic: none, cc N [latching] or key N */
+#define BINDING(key, action)                                                                       \
+	{"control", key, CONFIG_OWN, "none", 0, 0, none_word, CONTROL(actions[action]), read_binding, \
+	 "none, cc N (a controller from 0 to 119; cc N latching for a latching pedal) or key N (a key from 0 to 127)"}
 
 static const struct config_key keys[] = {
 	{"lattice", "seeds", CONFIG_OWN, "1 3 5 7", 2, LATTICE_MAX_SEEDS, NULL, TUNING(lattice), read_seeds,
@@ -281,18 +284,12 @@ static const struct config_key keys[] = {
 	 "none, or the first of the keys that pick presets, 0 to 127"},
 	{"control", "root_keys", CONFIG_WHOLE, "none", 0, 127, none_word, CONTROL(root_keys), NULL,
 	 "none, or the first of the keys that move the 1/1, 0 to 127"},
-	{"control", "preset_next", CONFIG_OWN, "none", 0, 0, none_word,
-	 CONTROL(actions[ENGINE_ACTION_PRESET_NEXT]), read_binding, BINDING_HELP},
-	{"control", "preset_previous", CONFIG_OWN, "none", 0, 0, none_word,
-	 CONTROL(actions[ENGINE_ACTION_PRESET_PREVIOUS]), read_binding, BINDING_HELP},
-	{"control", "root_next", CONFIG_OWN, "none", 0, 0, none_word,
-	 CONTROL(actions[ENGINE_ACTION_ROOT_NEXT]), read_binding, BINDING_HELP},
-	{"control", "root_previous", CONFIG_OWN, "none", 0, 0, none_word,
-	 CONTROL(actions[ENGINE_ACTION_ROOT_PREVIOUS]), read_binding, BINDING_HELP},
-	{"control", "root_home", CONFIG_OWN, "none", 0, 0, none_word,
-	 CONTROL(actions[ENGINE_ACTION_ROOT_HOME]), read_binding, BINDING_HELP},
-	{"control", "panic", CONFIG_OWN, "none", 0, 0, none_word,
-	 CONTROL(actions[ENGINE_ACTION_PANIC]), read_binding, BINDING_HELP},
+	BINDING("preset_next", ENGINE_ACTION_PRESET_NEXT),
+	BINDING("preset_previous", ENGINE_ACTION_PRESET_PREVIOUS),
+	BINDING("root_next", ENGINE_ACTION_ROOT_NEXT),
+	BINDING("root_previous", ENGINE_ACTION_ROOT_PREVIOUS),
+	BINDING("root_home", ENGINE_ACTION_ROOT_HOME),
+	BINDING("panic", ENGINE_ACTION_PANIC),
 	{"control", "step_ends", CONFIG_CHOICE, "stop", 0, 0, step_ends, CONTROL(wrap), NULL,
 	 "stop (a step past the last or before the first preset or root stays there) or wrap (it goes round)"},
 	{"daemon", "backend", CONFIG_CHOICE_TEXT, "auto", 0, 0, backends, DAEMON(backend), NULL,

@@ -5,6 +5,8 @@
 
 #include <stdio.h>
 
+#include "config_control.h"
+
 #define STRINGIFY(x) #x
 #define TEXT_OF(x) STRINGIFY(x)
 
@@ -56,10 +58,6 @@ void notice_text_lines(uint32_t notices, const struct engine_stats *stats, int b
 
 /* ---- control misses ---------------------------------------------------------- */
 
-static const char *const action_words[ENGINE_ACTION_COUNT] = {
-	"preset_next", "preset_previous", "root_next", "root_previous", "root_home", "panic",
-};
-
 /* "CC 21 value 9 on channel 16" or "key 48 on channel 1" */
 static void what_came(const struct engine_control_miss *m, bool is_cc, char *buf, size_t size)
 {
@@ -101,7 +99,7 @@ void notice_text_control_miss(const struct engine_control_miss *m,
 		bool presets = m->action == ENGINE_ACTION_PRESET_NEXT ||
 			       m->action == ENGINE_ACTION_PRESET_PREVIOUS;
 		bool forward = m->action == ENGINE_ACTION_PRESET_NEXT || m->action == ENGINE_ACTION_ROOT_NEXT;
-		by = (unsigned)m->action < ENGINE_ACTION_COUNT ? action_words[m->action] : "?";
+		by = config_action_key(m->action);
 		if (presets)
 			snprintf(why, sizeof why, "already on the %s preset (%s, %d of %d) and step_ends = stop",
 				 forward ? "last" : "first", m->preset_name, m->preset + 1, m->presets);
