@@ -149,7 +149,10 @@ static bool read_binding(const struct config_key *key, const char *text, void *f
 	(void)key;
 	(void)why;
 	(void)why_size;
-	struct engine_binding b = {ENGINE_BINDING_NONE, -1, false};
+	struct engine_binding b;
+	memset(&b, 0, sizeof b); /* padding too: specs are compared with memcmp */
+	b.kind = ENGINE_BINDING_NONE;
+	b.number = -1;
 	char buf[CONFIG_VALUE_MAX];
 	char *words[4];
 	text_copy(buf, sizeof buf, text);
