@@ -320,6 +320,9 @@ struct engine {
 	struct passthrough passthrough;  /* notes on channels not retuned */
 
 	uint8_t action_value[ENGINE_ACTION_COUNT]; /* a bound controller's last value, 0xFF none */
+	uint64_t steer_keys[2];          /* keys that steer on a playing channel */
+	uint64_t steer_ccs[2];           /* controllers that steer there (channel = playing) */
+	bool steer_program;              /* program changes steer there */
 	struct engine_control_miss miss;
 	bool miss_pending;
 

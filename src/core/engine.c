@@ -59,6 +59,7 @@ static void rebuild_table(struct engine *e)
 		if (e->tunings->presets[i].lattice->tone_count > most)
 			most = e->tunings->presets[i].lattice->tone_count;
 	e->reserved_root_keys = most + 1;
+	engine_steer_refresh(e); /* the runs of reserved keys follow the tunings */
 }
 
 static void tuning_changed(struct engine *e)
@@ -325,7 +326,7 @@ static void channel_message(struct engine *e, uint8_t source, const struct midi_
 {
 	int ch = midi_msg_channel(m);
 	uint8_t type = midi_msg_type(m);
-	if (engine_steer_message(e, m))
+	if (engine_may_steer(e, m) && engine_steer_message(e, m))
 		return; /* the control channel, a reserved key, a bound controller */
 	if (!((e->retuned >> ch) & 1)) {
 		if (engine_uses(e, ch)) {

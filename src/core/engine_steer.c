@@ -44,11 +44,6 @@ static bool on_control_channel(const struct engine *e, int ch)
 	return e->spec.control.channel == ch;
 }
 
-static bool on_playing_channel(const struct engine *e, int ch)
-{
-	return e->spec.control.channel == ENGINE_CONTROL_PLAYING && ((e->retuned >> ch) & 1);
-}
-
 static int bound_action(const struct engine_control_spec *c, int kind, int number)
 {
 	for (int a = 0; a < ENGINE_ACTION_COUNT; a++)
@@ -74,24 +69,18 @@ static struct hit find_key(const struct engine *e, int key)
 static struct hit find(const struct engine *e, const struct midi_msg *m)
 {
 	const struct engine_control_spec *c = &e->spec.control;
-	int ch = midi_msg_channel(m);
-	bool control = on_control_channel(e, ch);
-	bool playing = !control && ((e->retuned >> ch) & 1);
-	if (!control && !playing)
+	if (!engine_may_steer(e, m))
 		return (struct hit){HIT_NONE, 0, false};
-	bool controllers = control || on_playing_channel(e, ch);
 	switch (midi_msg_type(m)) {
 	case MIDI_NOTE_ON:
 		if (m->data[1] > 0)
 			return find_key(e, m->data[0]);
 		break;
 	case MIDI_PROGRAM:
-		if (controllers && c->program_selects_preset)
+		if (c->program_selects_preset)
 			return (struct hit){HIT_PROGRAM, 0, false};
 		break;
 	case MIDI_CONTROL: {
-		if (!controllers)
-			break;
 		int cc = m->data[0];
 		int a = bound_action(c, ENGINE_BINDING_CC, cc);
 		if (a >= 0)
@@ -229,6 +218,34 @@ void engine_steer_init(struct engine *e)
 {
 	memset(e->action_value, VALUE_NONE, sizeof e->action_value);
 	e->miss_pending = false;
+}
+
+static void mark_run(uint64_t *bits, int first, int count)
+{
+	for (int k = first; first >= 0 && k < first + count && k < 128; k++)
+		engine_bit_put(bits, k, true);
+}
+
+void engine_steer_refresh(struct engine *e)
+{
+	const struct engine_control_spec *c = &e->spec.control;
+	bool playing = c->channel == ENGINE_CONTROL_PLAYING;
+	memset(e->steer_keys, 0, sizeof e->steer_keys);
+	memset(e->steer_ccs, 0, sizeof e->steer_ccs);
+	mark_run(e->steer_keys, c->preset_keys, e->tunings->count);
+	mark_run(e->steer_keys, c->root_keys, e->reserved_root_keys);
+	for (int a = 0; a < ENGINE_ACTION_COUNT; a++) {
+		const struct engine_binding *b = &c->actions[a];
+		if (b->kind == ENGINE_BINDING_KEY)
+			mark_run(e->steer_keys, b->number, 1);
+		else if (b->kind == ENGINE_BINDING_CC && playing)
+			mark_run(e->steer_ccs, b->number, 1);
+	}
+	if (playing) {
+		mark_run(e->steer_ccs, c->preset_cc, 1);
+		mark_run(e->steer_ccs, c->root_cc, 1);
+	}
+	e->steer_program = playing && c->program_selects_preset;
 }
 
 bool engine_take_control_miss(struct engine *e, struct engine_control_miss *out)
