@@ -265,6 +265,7 @@ CONFIG = """\
 [daemon]
 backend = raw
 control_socket = {dir}/run/control
+state_file = {dir}/state.json
 realtime_priority = none
 lock_memory = no
 

@@ -20,6 +20,7 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
+#include "config_control.h"
 #include "config_ini.h"
 #include "midi_io.h"
 
@@ -330,6 +331,7 @@ static void cross_check(struct interp *in)
 		fail(in, config_line_of(&cfg->lines, "control", "channel"),
 		     "the control channel %d is also retuned in [input] channels, expected a channel the player does not play on",
 		     ctl + 1);
+	in->errors += config_control_check(cfg, in->report);
 	int inputs = __builtin_popcount(input->channels);
 	for (int i = 0; i < cfg->output_count; i++) {
 		struct output_config *o = &cfg->outputs[i];

@@ -83,6 +83,7 @@ struct daemon_config {
 	int realtime_priority;     /* 1..99, or -1: none */
 	bool lock_memory;
 	char control_socket[CONFIG_PATH_MAX]; /* "auto", "none" or a path */
+	char state_file[CONFIG_PATH_MAX];     /* "auto", "none" or a path */
 };
 
 struct config {

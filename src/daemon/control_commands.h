@@ -1,7 +1,7 @@
 /*
  * control_commands: what a running daemon can be asked, defined once.
  *
- * Model: five commands (status, panic, preset NAME, root N, reload), each
+ * Model: five commands (status, panic, preset NAME, root TONE, reload), each
  * a request word on the control socket and a `latticed` command of the
  * same name.  The table holds the word, the form of its argument, the
  * help texts and how long a client waits; the CLI (main.c), the client
@@ -38,7 +38,7 @@ extern const struct control_command control_commands[CONTROL_KIND_COUNT];
 
 const struct control_command *control_command_find(const char *name);
 
-/* "status, panic, preset NAME, root N or reload" into buf */
+/* "status, panic, preset NAME, root TONE or reload" into buf */
 char *control_command_list(char *buf, size_t size);
 
 /*

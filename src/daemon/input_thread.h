@@ -92,6 +92,7 @@ struct input_output {                /* one output, as the input thread sees it 
 	size_t want;                     /* wake when the ring's fill is below this */
 	int64_t waiting_since_ms;        /* a message has waited for room here since */
 	bool cut_off;                    /* fell behind: no input until its ring drains */
+	bool ended_while_cut_off;        /* a MIDI panic came meanwhile: end all 16 channels */
 	uint64_t cut_offs;
 	bool was_gone;                   /* OUTPUT_GONE since its last connection */
 	bool reconnect_pending;          /* OUTPUT_CONNECTED still to handle */
@@ -144,7 +145,9 @@ struct input_thread {
 	struct retired_tunings retired[INPUT_RETIRED_MAX];
 	int outbox_count;
 	struct reply outbox[INPUT_OUTBOX_MAX];
-	int last_preset, last_root;
+	int last_preset, last_root;      /* -1: post the tuning state at the next check */
+	int64_t miss_logged_ms;          /* control misses (input_control.c) */
+	uint32_t control_panics_logged;
 	int64_t retired_checked_ms;
 	uint64_t inputs_lost, inputs_lost_logged; /* INPUT_LOST reports */
 	int64_t input_lost_logged_ms;

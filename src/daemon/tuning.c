@@ -14,6 +14,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "config_control.h"
 #include "latticed/ratio.h"
 
 /* The line to blame for spec field `field` of preset t. */
@@ -305,6 +306,14 @@ bool tuning_set_build(const struct config *cfg, struct tuning_set *out,
 		p->keymap = &t->keymap;
 	}
 	out->count = out->engine.count = cfg->preset_count;
+	if (ok) {
+		/* the reserved keys' runs are known now: home and the largest preset's tones */
+		int most = 0;
+		for (int i = 0; i < out->count; i++)
+			if (out->tunings[i].lattice.tone_count > most)
+				most = out->tunings[i].lattice.tone_count;
+		ok = config_control_check_keys(cfg, out->count, most, report) == 0;
+	}
 	if (!ok)
 		tuning_set_free(out);
 	return ok;

@@ -40,7 +40,8 @@ bool tuning_build(const struct config *cfg, int preset, struct tuning *out,
  * or -1 if the text names none of them. */
 int tuning_root_slot(const struct lattice *lat, const char *text);
 
-/* Builds every preset (allocates); false with errors in report. */
+/* Builds every preset (allocates) and checks the runs of reserved keys
+ * against them (config_control.h); false with errors in report. */
 bool tuning_set_build(const struct config *cfg, struct tuning_set *out,
 		      struct config_report *report);
 void tuning_set_free(struct tuning_set *set);
