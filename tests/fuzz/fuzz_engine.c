@@ -305,6 +305,15 @@ static void spec_from_header(const uint8_t *h, struct engine_spec *s)
 		if (in->channels == 0)
 			in->channels = c->channel == 0 ? 0x0002 : 0x0001;
 	}
+	/* mpe plays only on the zone's members the output's channels name
+	 * (engine_mpe.c): a pool outside the zone is a config error, not a case */
+	if (o->method == RETUNE_MPE) {
+		uint16_t zone = 0;
+		for (int i = 1; i <= o->mpe_members; i++)
+			zone |= (uint16_t)(1u << (o->mpe_zone == MPE_ZONE_LOWER ? i : 15 - i));
+		if (!(zone & o->channels))
+			o->channels = 0xFFFF;
+	}
 	/* mts needs an output channel per retuned input channel (engine.h) */
 	if (o->method == RETUNE_MTS &&
 	    __builtin_popcount(o->channels) < __builtin_popcount(in->channels))
