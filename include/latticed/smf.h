@@ -18,8 +18,11 @@
  *     does not belong in a file (F1..F6, F8..FE), fewer MTrk chunks than
  *     the header declares, an unknown format, a zero division.
  * Every error names the byte offset in the file and what was expected.
- * The reader allocates (an offline path, at load time); struct smf owns a
- * copy of the file, and every payload pointer points into that copy.
+ * smf_read allocates (an offline path, at load time); struct smf owns a
+ * copy of the file, and every payload pointer points into that copy.  A
+ * whole file can also be read in place, one event at a time, with an
+ * index of its tracks and a cursor per track (smf_index_read,
+ * smf_cursor_next): nothing is held but the caller's bytes.
  *
  * Writing is strict: MThd length 6, exact chunk lengths, running status only
  * between channel messages (never across meta or SysEx), SysEx as
@@ -147,6 +150,56 @@ static inline uint16_t smf_division_smpte(unsigned frames_per_second, unsigned t
  * (*out then owns nothing). */
 bool smf_read(const uint8_t *bytes, size_t length, struct smf *out, struct smf_error *err);
 void smf_free(struct smf *s);
+
+/* --- reading in place: an index of the tracks, a cursor per track ---------- */
+
+struct smf_track_info {
+	size_t offset;             /* file offset of the MTrk chunk */
+	size_t start, end;         /* its body, [start, end) */
+	size_t event_count;        /* its events, the end-of-track meta included */
+	bool has_end_of_track;
+	uint32_t end_tick;         /* as in struct smf_track */
+};
+
+struct smf_index {
+	uint16_t format;
+	uint16_t division;
+	size_t track_count;        /* as declared in MThd */
+	struct smf_track_info *tracks;
+};
+
+typedef void (*smf_event_fn)(void *context, size_t track, const struct smf_event *ev);
+
+/* Checks the whole file as smf_read does (the same errors, found in the
+ * same order) and notes where each track lies, copying nothing: the bytes
+ * must outlive the index and every cursor on it.  `each` (may be NULL) is
+ * shown every event of every track, in file order, as cursors give them.
+ * smf_index_free releases *out. */
+bool smf_index_read(const uint8_t *bytes, size_t length, struct smf_index *out, smf_event_fn each,
+		    void *context, struct smf_error *err);
+void smf_index_free(struct smf_index *x);
+
+struct smf_cursor {
+	/* private state */
+	const uint8_t *file;
+	size_t pos, end;
+	size_t number, count;      /* 1-based track number, of count (for errors) */
+	uint32_t tick;
+	uint8_t running;
+};
+
+enum smf_cursor_result { SMF_CURSOR_EVENT, SMF_CURSOR_END, SMF_CURSOR_ERROR };
+
+void smf_cursor_init(struct smf_cursor *c, const uint8_t *bytes, const struct smf_index *x, size_t track);
+/* The track's next event, its end-of-track meta included, as smf_read
+ * would hold it, except that a SYSEX event's msg is left empty (status 0:
+ * see smf_event_is_complete_sysex); ERROR (with *err set) only on bytes
+ * smf_index_read would refuse. */
+enum smf_cursor_result smf_cursor_next(struct smf_cursor *c, struct smf_event *ev, struct smf_error *err);
+
+/* A SYSEX event holding a whole message: data bytes and a final F7, fewer
+ * than 65535 bytes (smf_read gives those a msg). */
+bool smf_event_is_complete_sysex(const struct smf_event *ev);
 
 /* The tempo of an FF 51 event in microseconds per quarter note; false if ev
  * is not a well-formed tempo event (length 3). */
