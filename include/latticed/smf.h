@@ -207,15 +207,57 @@ bool smf_event_tempo(const struct smf_event *ev, uint32_t *usec_per_quarter);
 
 /* --- writer -------------------------------------------------------------- */
 
+#define SMF_HEADER_BYTES 14        /* MThd, its length, format, tracks, division */
+#define SMF_CHUNK_HEADER_BYTES 8   /* MTrk and its length */
+
+/* One track's MTrk body.  Its bytes collect in a buffer the owner may
+ * empty whenever it likes (smf_track_writer_take, after copying
+ * w->bytes[0..w->length) elsewhere); w->size counts the whole body. */
+struct smf_track_writer {
+	uint8_t *bytes;            /* the body not yet taken */
+	size_t length, capacity;
+	uint64_t size;             /* the whole body so far, taken bytes included */
+	/* private state */
+	uint32_t last_tick;
+	uint8_t running_status;
+	uint16_t number;           /* 1-based, for messages */
+	bool ended;
+	bool failed;
+	struct smf_error error;    /* why the first failing call failed; offset: body bytes before it */
+};
+
+/* Each call returns false on error; the writer then refuses every further
+ * call and w->error says what went wrong.  The calls are those of struct
+ * smf_writer below, with the same rules and messages. */
+void smf_track_writer_init(struct smf_track_writer *w, uint16_t number);
+bool smf_track_writer_midi(struct smf_track_writer *w, uint32_t tick, const struct midi_msg *m);
+bool smf_track_writer_sysex(struct smf_track_writer *w, uint32_t tick, const uint8_t *bytes,
+			    uint32_t length);
+bool smf_track_writer_escape(struct smf_track_writer *w, uint32_t tick, const uint8_t *bytes,
+			     uint32_t length);
+bool smf_track_writer_meta(struct smf_track_writer *w, uint32_t tick, uint8_t type,
+			   const uint8_t *data, uint32_t length);
+bool smf_track_writer_tempo(struct smf_track_writer *w, uint32_t tick, uint32_t usec_per_quarter);
+bool smf_track_writer_event(struct smf_track_writer *w, const struct smf_event *ev);
+/* The end-of-track event; the body is then complete (w->size <= UINT32_MAX). */
+bool smf_track_writer_end(struct smf_track_writer *w, uint32_t tick);
+/* The buffered bytes were copied elsewhere: the buffer starts empty again. */
+void smf_track_writer_take(struct smf_track_writer *w);
+void smf_track_writer_free(struct smf_track_writer *w);
+
+/* A file's header and a track's chunk header, for a writer of its own. */
+bool smf_header_check(uint16_t format, uint16_t division, struct smf_error *err);
+void smf_header_encode(uint8_t out[SMF_HEADER_BYTES], uint16_t format, uint16_t tracks, uint16_t division);
+void smf_chunk_header_encode(uint8_t out[SMF_CHUNK_HEADER_BYTES], uint32_t length);
+
+/* A whole file in one growing memory buffer. */
 struct smf_writer {
 	/* private state */
 	uint8_t *bytes;
 	size_t length, capacity;
 	uint16_t format, division;
 	uint16_t track_count;
-	size_t track_length_at;    /* where the open track's chunk length goes */
-	uint32_t last_tick;
-	uint8_t running_status;
+	struct smf_track_writer track;   /* the open track */
 	bool in_track;
 	bool failed;
 	struct smf_error error;    /* why the first failing call failed */
