@@ -51,6 +51,28 @@ static void note_queue_drop(struct input_thread *t, struct input_output *o)
 	t->wake_main = true;
 }
 
+/* Sends at once when nothing waits in o's ring (so all before it was sent)
+ * and the output thread is idle: no hand-over on the way of a live note. */
+static bool send_directly(struct input_thread *t, struct input_output *o, size_t length)
+{
+	if (msg_queue_fill(t->messages, o->index) != 0)
+		return false;
+	if (!t->borrowed && !output_thread_borrow(t->output))
+		return false;
+	t->borrowed = true;
+	return output_thread_send_borrowed(t->output, o->index, t->encode_buffer, length);
+}
+
+/* The output side goes back to the output thread before the input thread
+ * sleeps or waits: it then flushes what was sent directly. */
+static void give_back(struct input_thread *t)
+{
+	if (!t->borrowed)
+		return;
+	t->borrowed = false;
+	output_thread_give_back(t->output);
+}
+
 /* The engine's callback: one message for output o.  Room was checked
  * before the engine got the message that made it (input_feed.c). */
 static void emit(void *context, const struct midi_msg *m)
@@ -62,6 +84,10 @@ static void emit(void *context, const struct midi_msg *m)
 	size_t n = midi_msg_encode(m, t->encode_buffer, sizeof t->encode_buffer);
 	if (n == 0)
 		return; /* the engine only makes valid messages; nothing to send */
+	if (send_directly(t, o, n)) {
+		o->queued++;
+		return;
+	}
 	if (!msg_queue_push(t->messages, o->index, t->encode_buffer, n)) {
 		note_queue_drop(t, o);
 		feed_cut_off(t, o, "a message found no room in its queue");
@@ -73,6 +99,7 @@ static void emit(void *context, const struct midi_msg *m)
 
 static void wake_others(struct input_thread *t)
 {
+	give_back(t);
 	if (t->wake_output) {
 		t->wake_output = false;
 		wake_fd_signal(t->output_wake_fd);
@@ -91,7 +118,15 @@ static void on_input(void *context, uint8_t source, const uint8_t *bytes, size_t
 	if (source >= MIDI_IO_MAX_SOURCES)
 		source = MIDI_IO_MAX_SOURCES - 1;
 	feed_input(t, source, bytes, length);
-	wake_others(t); /* the first note of a chord goes before the parser reads on */
+	/* queued messages go before the parser reads on; what went straight to
+	 * the backend is flushed at the end of the batch (on_input_done) */
+	if (t->wake_output || t->wake_main)
+		wake_others(t);
+}
+
+static void on_input_done(void *context)
+{
+	wake_others(context);
 }
 
 static bool on_accepting(void *context)
@@ -127,7 +162,7 @@ static void on_event(void *context, enum midi_io_event kind, int index, const ch
 struct midi_io_callbacks input_thread_callbacks(struct input_thread *t)
 {
 	struct midi_io_callbacks cb = {.context = t, .input = on_input, .event = on_event,
-				       .accepting = on_accepting};
+				       .accepting = on_accepting, .input_done = on_input_done};
 	return cb;
 }
 
@@ -163,6 +198,7 @@ bool input_thread_init(struct input_thread *t, const struct config *cfg,
 	log_ring_init(&t->log);
 	input_backlog_init(&t->backlog);
 	atomic_init(&t->heartbeat, 0);
+	t->borrowed = false;
 	t->last_preset = 0;
 	t->last_root = 0;
 	t->inputs_lost = t->inputs_lost_logged = 0;
@@ -292,6 +328,7 @@ static void shutdown_panic(struct input_thread *t)
 {
 	int64_t give_up = monotonic_ms() + SHUTDOWN_WAIT_MS;
 	const struct timespec pause = {0, 1000000};
+	give_back(t); /* the output thread drains the rings meanwhile */
 	for (;;) {
 		bool all = true;
 		for (int k = 0; k < t->output_count; k++)

@@ -471,6 +471,9 @@ static void alsa_service_input(struct midi_io *io)
 		if (r < 0 || ev == NULL)
 			break;
 		handle_event(io, ev);
+		/* the last event of what the read brought: its answer goes now */
+		if (io->cb.input_done && snd_seq_event_input_pending(io->seq, 0) == 0)
+			io->cb.input_done(io->cb.context);
 	}
 	if (io->resync)
 		resync(io);

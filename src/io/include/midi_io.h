@@ -25,12 +25,21 @@
  *     and the backend reads nothing more in this call, leaving the input
  *     where the system keeps it (FIFO, device, sequencer queue) until a
  *     later call.  What one read has delivered is always taken.
- *   - The output side runs on the output thread only: send() queues one
- *     complete message (status byte first: running status is not taken)
- *     for one output without blocking and returns false
- *     if it cannot (the caller tries it again later); flush() pushes queued
- *     messages out after a batch and returns false while some are still
- *     held back (the receiver is not reading): call it again later.
+ *     Batches: the daemon may hold back what it makes of input() (to send
+ *     it in one write) until the backend calls input_done(), which it does
+ *     when it has delivered all that one read brought and before it reads
+ *     again, or until service_input() returns.
+ *   - The output side: send() queues one complete message (status byte
+ *     first: running status is not taken) for one output without blocking
+ *     and returns false if it cannot (the caller tries it again later);
+ *     flush() pushes queued messages out after a batch and returns false
+ *     while some are still held back (the receiver is not reading): call
+ *     it again later.  send() and flush() are never called at the same
+ *     time, but by either MIDI thread: the daemon hands the output side
+ *     from one to the other (with acquire/release ordering, so each call
+ *     sees what the last one did), and when the input thread holds it the
+ *     input side is not running; so the output side keeps no thread of
+ *     its own, and may run beside the input side as before.
  *   - describe() (input thread) and list() (any thread, no open needed)
  *     report ports and connections as text lines for `latticed status`
  *     and `latticed ports`.
@@ -69,6 +78,9 @@ struct midi_io_callbacks {
 	void (*event)(void *context, enum midi_io_event kind, int index, const char *name);
 	/* optional: false stops reading input for now (backpressure, above) */
 	bool (*accepting)(void *context);
+	/* optional: everything one read brought has gone through input();
+	 * what the daemon made of it goes out now, before the next read */
+	void (*input_done)(void *context);
 };
 
 struct midi_io_port_spec {
