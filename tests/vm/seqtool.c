@@ -9,7 +9,7 @@
  *   seqtool compare [--time-tolerance MS] EXPECTED ACTUAL
  *   seqtool latency [OPTIONS] TO FROM | --direct
  *   seqtool forward [OPTIONS]                  (seqtool_bench.c)
- *   seqtool stream [OPTIONS] TO FROM | --direct  (seqtool_bench.c)
+ *   seqtool stream [OPTIONS] ROUTE...          (seqtool_bench.c)
  *
  * A port is named "client:port" with the names `list` prints (e.g.
  * "Midi Through:Midi Through Port-0", "latticed:in"), by a client name
