@@ -168,13 +168,14 @@ struct smf_index {
 	struct smf_track_info *tracks;
 };
 
+/* An event of track `track` (0-based), as a cursor gives it. */
 typedef void (*smf_event_fn)(void *context, size_t track, const struct smf_event *ev);
 
 /* Checks the whole file as smf_read does (the same errors, found in the
  * same order) and notes where each track lies, copying nothing: the bytes
- * must outlive the index and every cursor on it.  `each` (may be NULL) is
- * shown every event of every track, in file order, as cursors give them.
- * smf_index_free releases *out. */
+ * must outlive the index and every cursor on it.  `each` (may be NULL)
+ * sees every event of every track in file order on the way, the bad one
+ * excepted.  smf_index_free releases *out. */
 bool smf_index_read(const uint8_t *bytes, size_t length, struct smf_index *out, smf_event_fn each,
 		    void *context, struct smf_error *err);
 void smf_index_free(struct smf_index *x);
@@ -217,19 +218,21 @@ struct smf_track_writer {
 	uint8_t *bytes;            /* the body not yet taken */
 	size_t length, capacity;
 	uint64_t size;             /* the whole body so far, taken bytes included */
+	bool failed;
 	/* private state */
+	struct smf_error *error;   /* the owner's: why the first failing call
+	                            * failed (offset: body bytes before it) */
 	uint32_t last_tick;
 	uint8_t running_status;
 	uint16_t number;           /* 1-based, for messages */
 	bool ended;
-	bool failed;
-	struct smf_error error;    /* why the first failing call failed; offset: body bytes before it */
 };
 
 /* Each call returns false on error; the writer then refuses every further
- * call and w->error says what went wrong.  The calls are those of struct
- * smf_writer below, with the same rules and messages. */
-void smf_track_writer_init(struct smf_track_writer *w, uint16_t number);
+ * call, and *error (given at init, the owner's; several writers may share
+ * one) says what went wrong.  The calls are those of struct smf_writer
+ * below, with the same rules and messages. */
+void smf_track_writer_init(struct smf_track_writer *w, uint16_t number, struct smf_error *error);
 bool smf_track_writer_midi(struct smf_track_writer *w, uint32_t tick, const struct midi_msg *m);
 bool smf_track_writer_sysex(struct smf_track_writer *w, uint32_t tick, const uint8_t *bytes,
 			    uint32_t length);
@@ -258,6 +261,7 @@ struct smf_writer {
 	uint16_t format, division;
 	uint16_t track_count;
 	struct smf_track_writer track;   /* the open track */
+	struct smf_error track_error;
 	bool in_track;
 	bool failed;
 	struct smf_error error;    /* why the first failing call failed */

@@ -3,16 +3,16 @@
  *
  * A cursor reads one track's events in place, one at a time, with no
  * allocation: smf_index_read walks the chunks once with it, checking every
- * event (and showing each to a caller that wants them) and noting where
- * each track lies, so a render can then merge the tracks with a cursor
- * each, holding nothing but the file.  smf_read decodes each checked track
- * into an event array whose payload pointers point into our own copy of
- * the file, so the caller's buffer may go away after it.  Complete SysEx packets are
- * then copied once more, with their F0 put back in front, into one block so
- * that each can be handed to the engine as an ordinary struct midi_msg.
- * All bounds are checked against the end of the current chunk before a byte
- * is read; errors name the offset of the byte that could not be read or did
- * not make sense.
+ * event (and showing it to a caller that wants to see them) and noting
+ * where each track lies, so that a render can then merge
+ * the tracks with a cursor each, holding nothing but the file.  smf_read
+ * decodes each checked track into an event array whose payload pointers
+ * point into our own copy of the file, so the caller's buffer may go away
+ * after it.  Complete SysEx packets are then copied once more, with their
+ * F0 put back in front, into one block so that each can be handed to the
+ * engine as an ordinary struct midi_msg.  All bounds are checked against
+ * the end of the current chunk before a byte is read; errors name the
+ * offset of the byte that could not be read or did not make sense.
  */
 #include "latticed/smf.h"
 
@@ -198,7 +198,7 @@ enum smf_cursor_result smf_cursor_next(struct smf_cursor *c, struct smf_event *e
 	return read_event(c, err, ev) ? SMF_CURSOR_EVENT : SMF_CURSOR_ERROR;
 }
 
-/* Every event of one track, through `each`; fills in what the index keeps. */
+/* Every event of one track, shown to `each`; fills in what the index keeps. */
 static bool check_track(struct smf_cursor *c, struct smf_track_info *t, smf_event_fn each, void *context,
 			struct smf_error *err)
 {

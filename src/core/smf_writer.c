@@ -36,12 +36,13 @@ static void set_error(struct smf_error *e, size_t offset, const char *fmt, va_li
 	vsnprintf(e->text, sizeof e->text, fmt, ap);
 }
 
-/* Grows *bytes so that `more` bytes fit after `length`. */
-static bool reserve_bytes(uint8_t **bytes, size_t *capacity, size_t length, size_t more, size_t *tried)
+/* Grows *bytes so that `more` bytes fit after `length`, from `first` bytes. */
+static bool reserve_bytes(uint8_t **bytes, size_t *capacity, size_t length, size_t more, size_t first,
+			  size_t *tried)
 {
 	if (more <= *capacity - length)
 		return true;
-	size_t cap = *capacity ? *capacity : 256;
+	size_t cap = *capacity ? *capacity : first;
 	while (cap - length < more) {
 		if (cap > SIZE_MAX / 2) {
 			*tried = 0;
@@ -70,15 +71,18 @@ static bool track_fail(struct smf_track_writer *w, const char *fmt, ...)
 	w->failed = true;
 	va_list ap;
 	va_start(ap, fmt);
-	set_error(&w->error, (size_t)w->size, fmt, ap);
+	set_error(w->error, (size_t)w->size, fmt, ap);
 	va_end(ap);
 	return false;
 }
 
+/* A track's buffer starts small: a render may keep thousands at once. */
+#define TRACK_FIRST_BYTES 64
+
 static bool track_reserve(struct smf_track_writer *w, size_t more)
 {
 	size_t tried;
-	if (reserve_bytes(&w->bytes, &w->capacity, w->length, more, &tried))
+	if (reserve_bytes(&w->bytes, &w->capacity, w->length, more, TRACK_FIRST_BYTES, &tried))
 		return true;
 	if (tried)
 		return track_fail(w, "out of memory (%zu bytes)", tried);
@@ -87,14 +91,32 @@ static bool track_reserve(struct smf_track_writer *w, size_t more)
 
 static void track_put(struct smf_track_writer *w, const void *p, size_t n)
 {
-	memcpy(w->bytes + w->length, p, n);
+	const uint8_t *from = p;
+	uint8_t *to = w->bytes + w->length;
+	/* most pieces are a delta time or a channel message: 1 to 3 bytes,
+	 * cheaper copied here than by a call */
+	switch (n) {
+	case 3:
+		to[2] = from[2];
+		/* fall through */
+	case 2:
+		to[1] = from[1];
+		/* fall through */
+	case 1:
+		to[0] = from[0];
+		/* fall through */
+	case 0:
+		break;
+	default:
+		memcpy(to, from, n);
+	}
 	w->length += n;
 	w->size += n;
 }
 
-void smf_track_writer_init(struct smf_track_writer *w, uint16_t number)
+void smf_track_writer_init(struct smf_track_writer *w, uint16_t number, struct smf_error *error)
 {
-	*w = (struct smf_track_writer){ .number = number };
+	*w = (struct smf_track_writer){ .number = number, .error = error };
 }
 
 void smf_track_writer_free(struct smf_track_writer *w)
@@ -326,7 +348,7 @@ static bool track_result(struct smf_writer *w, bool ok)
 	if (ok || w->failed)
 		return ok;
 	w->failed = true;
-	w->error = w->track.error;
+	w->error = w->track_error;
 	w->error.offset += w->length;
 	return false;
 }
@@ -334,7 +356,7 @@ static bool track_result(struct smf_writer *w, bool ok)
 static bool reserve(struct smf_writer *w, size_t more)
 {
 	size_t tried;
-	if (reserve_bytes(&w->bytes, &w->capacity, w->length, more, &tried))
+	if (reserve_bytes(&w->bytes, &w->capacity, w->length, more, 256, &tried))
 		return true;
 	if (tried)
 		return fail(w, "out of memory (%zu bytes)", tried);
@@ -440,7 +462,7 @@ bool smf_writer_track_begin(struct smf_writer *w)
 	w->in_track = true;
 	uint8_t *keep = w->track.bytes;
 	size_t capacity = w->track.capacity;
-	smf_track_writer_init(&w->track, w->track_count);
+	smf_track_writer_init(&w->track, w->track_count, &w->track_error);
 	w->track.bytes = keep;         /* the last track's buffer, reused */
 	w->track.capacity = capacity;
 	return true;
