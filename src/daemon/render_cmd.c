@@ -4,16 +4,8 @@
  * Memory.  The file is read into memory once and never copied: an index
  * of its tracks (smf_index_read, which checks every event first, so a
  * broken file fails before anything is rendered, with the reader's own
- * message) and a cursor per track merge the tracks as they are read.  The
- * output is built per track, because the file holds one track after
- * another while the engine's messages come in the merged order of all of
- * them: each track has a track writer that turns its events into SMF
- * bytes at once.  When the bytes buffered over all tracks pass
- * RENDER_BUFFER_BYTES, every buffer is appended to an unnamed scratch
- * file and emptied, each track keeping the list of its pieces there.
- * Writing the file then copies, track by track, the pieces back out and
- * the rest from memory.  So a render holds the input, at most a few
- * megabytes of output and a little per track, whatever the file's size.
+ * message) and a cursor per track merge the tracks as they are read; the
+ * output is built per track in bounded memory (render_out.c).
  *
  * Hanging notes are released through the engine as the player would
  * release them: a note-off for every key still down (retuned or passed
@@ -33,38 +25,24 @@
 #include "latticed/midi_msg.h"
 #include "latticed/smf.h"
 #include "notice_text.h"
+#include "render_out.h"
 #include "smf_file.h"
 
 #define CC_SUSTAIN 64
 #define CC_SOSTENUTO 66
-#define RENDER_BUFFER_BYTES ((size_t)4 << 20)
 #define SYSEX_MESSAGE_MAX (1 + UINT16_MAX)
 
-/* A piece of a track's body in the scratch file. */
-struct piece {
-	uint64_t at, length;
-};
-
-struct out_track {
-	struct smf_track_writer w;
-	struct piece *pieces;      /* in order, then w's buffer */
-	size_t piece_count, piece_capacity;
-	uint32_t last_tick;        /* of its last event so far (0: none) */
-	uint32_t end_tick;         /* the input track's */
-	bool release_set;          /* release_tick is chosen */
-	uint32_t release_tick;     /* where what hangs in this track is released */
+/* What a track needs for releasing what hangs there. */
+struct release_point {
+	bool set;                  /* tick is chosen */
+	uint32_t tick;             /* where what hangs in this track is released */
 };
 
 struct render {
 	const uint8_t *bytes;             /* the input file */
 	const struct smf_index *in;
-	struct out_track *tracks;
-	size_t buffered;                  /* bytes in all the track writers' buffers */
-	struct smf_scratch scratch;       /* fd -1 until the first spill */
-	bool spill_failed;                /* no more spilling: the rest stays in memory */
-	struct smf_error writer_error;    /* the track writers' */
-	size_t failed_track;              /* the first writer that failed, in track order */
-	struct smf_error first_error;     /* its reason */
+	struct render_out out;
+	struct release_point *release;    /* per track */
 	uint8_t *sysex;                   /* F0 and a SysEx packet, for the engine */
 	/* where the engine's messages go now */
 	size_t track;
@@ -78,87 +56,10 @@ struct render {
 	uint8_t hears[(UINT16_MAX + 1) / 8]; /* the track holds an event the engine hears */
 };
 
-/* ---- the output ------------------------------------------------------------ */
-
-/* The scratch file cannot be had: the output is kept in memory from now
- * on (a render that can succeed does), and the user is told why. */
-static void stop_spilling(struct render *r, const struct core_error *why)
-{
-	r->spill_failed = true;
-	snprintf(r->report->in_memory_why, sizeof r->report->in_memory_why, "%s", why->text);
-}
-
-/* Every track's buffered bytes into the scratch file. */
-static void spill(struct render *r)
-{
-	struct core_error why;
-	if (r->spill_failed)
-		return;
-	if (r->scratch.fd < 0 && !smf_scratch_open(&r->scratch, &why)) {
-		stop_spilling(r, &why);
-		return;
-	}
-	for (size_t t = 0; t < r->in->track_count; t++) {
-		struct out_track *o = &r->tracks[t];
-		if (o->w.length == 0)
-			continue;
-		if (o->piece_count == o->piece_capacity) {
-			size_t cap = o->piece_capacity ? 2 * o->piece_capacity : 8;
-			struct piece *p = realloc(o->pieces, cap * sizeof *p);
-			if (!p) {
-				core_fail(&why, "", "out of memory for the scratch file's index");
-				stop_spilling(r, &why);
-				return;
-			}
-			o->pieces = p;
-			o->piece_capacity = cap;
-		}
-		uint64_t at = r->scratch.length;
-		if (!smf_scratch_append(&r->scratch, o->w.bytes, o->w.length, &why)) {
-			stop_spilling(r, &why);
-			return;
-		}
-		o->pieces[o->piece_count++] = (struct piece){ .at = at, .length = o->w.length };
-		smf_track_writer_take(&o->w);
-	}
-	r->buffered = 0;
-}
-
-/* After a call on track t's writer: the bytes it buffered, its failure. */
-static void wrote(struct render *r, size_t t, size_t length_before, bool failed_before)
-{
-	struct out_track *o = &r->tracks[t];
-	r->buffered += o->w.length - length_before;
-	if (o->w.failed && !failed_before && t < r->failed_track) {
-		r->failed_track = t;
-		r->first_error = r->writer_error;
-	}
-	if (r->buffered > RENDER_BUFFER_BYTES)
-		spill(r);
-}
-
 static void on_emit(void *context, const struct midi_msg *m)
 {
 	struct render *r = context;
-	struct out_track *o = &r->tracks[r->track];
-	size_t before = o->w.length;
-	bool failed = o->w.failed;
-	(void)smf_track_writer_midi(&o->w, r->tick, m);
-	o->last_tick = r->tick;
-	r->report->events_out++;
-	wrote(r, r->track, before, failed);
-}
-
-/* An input event the engine does not hear, copied as it is. */
-static void copy_event(struct render *r, size_t track, const struct smf_event *ev)
-{
-	struct out_track *o = &r->tracks[track];
-	size_t before = o->w.length;
-	bool failed = o->w.failed;
-	(void)smf_track_writer_event(&o->w, ev);
-	o->last_tick = ev->tick;
-	r->report->events_out++;
-	wrote(r, track, before, failed);
+	render_out_midi(&r->out, r->track, r->tick, m);
 }
 
 /* ---- what a strict file cannot hold ---------------------------------------- */
@@ -328,7 +229,7 @@ static void feed(struct render *r, size_t track, const struct smf_event *ev)
 	r->track = track;
 	r->tick = ev->tick;
 	if (!engine_hears(ev)) {
-		copy_event(r, track, ev);
+		render_out_event(&r->out, track, ev);
 		return;
 	}
 	struct midi_msg m = ev->msg;
@@ -353,20 +254,20 @@ static void feed(struct render *r, size_t track, const struct smf_event *ev)
  * past the track's last event if the end lies beyond that. */
 static void release_in(struct render *r, size_t track, uint32_t end)
 {
-	struct out_track *t = &r->tracks[track];
-	if (!t->release_set) {
-		uint32_t last = t->last_tick;
-		t->release_tick = end;
+	struct release_point *p = &r->release[track];
+	if (!p->set) {
+		uint32_t last = r->out.tracks[track].last_tick;
+		p->tick = end;
 		if (end > last && end - last > SMF_DELTA_MAX) {
-			t->release_tick = last + SMF_DELTA_MAX;
+			p->tick = last + SMF_DELTA_MAX;
 			r->report->early_tracks++;
-			if (r->report->early_tick == 0 || t->release_tick < r->report->early_tick)
-				r->report->early_tick = t->release_tick;
+			if (r->report->early_tick == 0 || p->tick < r->report->early_tick)
+				r->report->early_tick = p->tick;
 		}
-		t->release_set = true;
+		p->set = true;
 	}
 	r->track = track;
-	r->tick = t->release_tick;
+	r->tick = p->tick;
 }
 
 /* A key's release goes to the track of its note-on, a pedal's to the
@@ -469,64 +370,14 @@ static bool perform(struct render *r, const struct engine_spec *spec,
 
 /* ---- writing ---------------------------------------------------------------- */
 
-/* Each track's end-of-track, after its last event and the input's end. */
-static void end_tracks(struct render *r)
-{
-	for (size_t t = 0; t < r->in->track_count; t++) {
-		struct out_track *o = &r->tracks[t];
-		uint32_t end = o->end_tick > o->last_tick ? o->end_tick : o->last_tick;
-		size_t before = o->w.length;
-		bool failed = o->w.failed;
-		(void)smf_track_writer_end(&o->w, end);
-		wrote(r, t, before, failed);
-	}
-}
-
-static bool fill_output(void *context, struct smf_sink *sink)
-{
-	const struct render *r = context;
-	uint8_t head[SMF_HEADER_BYTES];
-	smf_header_encode(head, r->report->format, (uint16_t)r->in->track_count, r->in->division);
-	if (!smf_sink_put(sink, head, sizeof head))
-		return false;
-	for (size_t t = 0; t < r->in->track_count; t++) {
-		const struct out_track *o = &r->tracks[t];
-		uint8_t chunk[SMF_CHUNK_HEADER_BYTES];
-		smf_chunk_header_encode(chunk, (uint32_t)o->w.size);
-		if (!smf_sink_put(sink, chunk, sizeof chunk))
-			return false;
-		for (size_t i = 0; i < o->piece_count; i++)
-			if (!smf_scratch_copy((struct smf_scratch *)&r->scratch, o->pieces[i].at,
-					      o->pieces[i].length, sink))
-				return false;
-		if (!smf_sink_put(sink, o->w.bytes, o->w.length))
-			return false;
-	}
-	return true;
-}
-
-/* The render's own failures, once it is over: the first in file order. */
-static bool render_failed(struct render *r, struct core_error *err)
-{
-	struct smf_error header;
-	if (!smf_header_check(r->report->format, r->in->division, &header))
-		return core_fail(err, "", "cannot build the output file: %s", header.text);
-	if (r->failed_track != SIZE_MAX)
-		return core_fail(err, "", "cannot build the output file: %s", r->first_error.text);
-	return true;
-}
-
 static bool render_tracks(struct render *r, const struct engine_spec *spec,
 			  const struct engine_tunings *tunings, struct core_error *err)
 {
 	const struct smf_index *in = r->in;
 	uint32_t last_tick = 0;
-	for (size_t t = 0; t < in->track_count; t++) {
-		smf_track_writer_init(&r->tracks[t].w, (uint16_t)(t + 1), &r->writer_error);
-		r->tracks[t].end_tick = in->tracks[t].end_tick;
+	for (size_t t = 0; t < in->track_count; t++)
 		if (in->tracks[t].end_tick > last_tick)
 			last_tick = in->tracks[t].end_tick;
-	}
 	bool ok = true;
 	if (in->format == 2) {
 		for (size_t t = 0; ok && t < in->track_count; t++)
@@ -536,20 +387,19 @@ static bool render_tracks(struct render *r, const struct engine_spec *spec,
 	}
 	if (!ok)
 		return false;
-	end_tracks(r);
-	return render_failed(r, err);
+	render_out_end(&r->out, in);
+	r->report->events_out = r->out.events;
+	if (r->out.in_memory)
+		snprintf(r->report->in_memory_why, sizeof r->report->in_memory_why, "%s", r->out.in_memory_why);
+	return render_out_check(&r->out, r->report->format, in->division, err);
 }
 
 static void render_free(struct render *r)
 {
-	for (size_t t = 0; r->tracks && t < r->in->track_count; t++) {
-		smf_track_writer_free(&r->tracks[t].w);
-		free(r->tracks[t].pieces);
-	}
-	free(r->tracks);
+	render_out_free(&r->out);
+	free(r->release);
 	free(r->sysex);
 	free(r->engine);
-	smf_scratch_close(&r->scratch);
 }
 
 /* ---- the command ------------------------------------------------------------ */
@@ -639,15 +489,16 @@ static bool render_file(struct render *r, const uint8_t *bytes, size_t length,
 	if (in.format == 0 && in.track_count > 1)
 		report->format = 1; /* the tracks are kept; only format 1 may hold them */
 	r->engine = malloc(sizeof *r->engine);
-	r->tracks = calloc(in.track_count ? in.track_count : 1, sizeof *r->tracks);
+	r->release = calloc(in.track_count ? in.track_count : 1, sizeof *r->release);
 	r->sysex = malloc(SYSEX_MESSAGE_MAX);
-	if (ok && !(r->engine && r->tracks && r->sysex))
+	bool out = render_out_init(&r->out, in.track_count);
+	if (ok && !(r->engine && r->release && r->sysex && out))
 		ok = core_fail(err, "", "out of memory");
 	ok = ok && render_tracks(r, &spec, req->tunings, err);
 	if (ok) {
 		*fault = FAULT_OUTPUT;
 		print_warnings(in_name, &in, report, &spec);
-		ok = smf_file_write_with(req->out_path, fill_output, r, err);
+		ok = render_out_write(&r->out, req->out_path, report->format, in.division, err);
 		if (ok && req->verbose)
 			print_summary(in_name, display_name(req->out_path, "standard output"), req, &in, report);
 	}
@@ -686,8 +537,7 @@ int render_run(const struct render_request *req)
 		fprintf(stderr, "latticed render: out of memory\n");
 		rc = 1;
 	} else {
-		*r = (struct render){ .bytes = bytes, .report = rep, .failed_track = SIZE_MAX,
-				      .scratch = { .fd = -1 } };
+		*r = (struct render){ .bytes = bytes, .report = rep, .out = { .scratch = { .fd = -1 } } };
 		if (!render_file(r, bytes, length, req, in_name, &err, &fault)) {
 			const struct output_config *o = &req->cfg->outputs[req->output];
 			if (fault == FAULT_OUTPUT)
