@@ -108,8 +108,9 @@ static void alsa_service_input(struct midi_io *io)
 {
 	if (io->resync)
 		alsa_resync(io);
-	/* Until the kernel has nothing more: events already in alsa-lib's
-	 * buffer would not wake poll() again. */
+	/* Until alsa-lib's buffer is empty: events in it would not wake poll()
+	 * again; what is still in the kernel does, so it is read on the next
+	 * call (one read a call: no read that only finds nothing). */
 	for (;;) {
 		/* backpressure: the rest waits in the sequencer's queue (which
 		 * may then overflow: INPUT_LOST ends the notes, none hangs) */
@@ -129,9 +130,12 @@ static void alsa_service_input(struct midi_io *io)
 		if (r < 0 || ev == NULL)
 			break;
 		handle_event(io, ev);
+		if (snd_seq_event_input_pending(io->seq, 0) > 0)
+			continue;
 		/* the last event of what the read brought: its answer goes now */
-		if (io->cb.input_done && snd_seq_event_input_pending(io->seq, 0) == 0)
+		if (io->cb.input_done)
 			io->cb.input_done(io->cb.context);
+		break;
 	}
 	if (io->resync)
 		alsa_resync(io);

@@ -12,8 +12,9 @@
  *     or none and a tick in milliseconds for a backend that must be polled
  *     (PortMidi has no descriptor).  service_input() may be called at any
  *     time, with nothing pending too.
- *     service_input() reads everything pending and reports it through the
- *     callbacks: raw MIDI bytes per source, in arrival order (SysEx may
+ *     service_input() reads what is pending (all of it, or as much as
+ *     leaves the rest where poll() still sees it: the daemon calls again
+ *     then) and reports it through the callbacks: raw MIDI bytes per source, in arrival order (SysEx may
  *     come in several pieces; the daemon's parser per source joins them),
  *     connection events, and INPUT_LOST where a queue overflowed (the
  *     events lost cannot be named, only that there were some).  Hotplug (a matching port appearing) is
