@@ -14,10 +14,12 @@
  *     time, with nothing pending too.
  *     service_input() reads what is pending (all of it, or as much as
  *     leaves the rest where poll() still sees it: the daemon calls again
- *     then) and reports it through the callbacks: raw MIDI bytes per source, in arrival order (SysEx may
- *     come in several pieces; the daemon's parser per source joins them),
- *     connection events, and INPUT_LOST where a queue overflowed (the
- *     events lost cannot be named, only that there were some).  Hotplug (a matching port appearing) is
+ *     then) and reports it through the callbacks: raw MIDI bytes per
+ *     source, in arrival order (SysEx may come in several pieces; the
+ *     daemon's parser per source joins them), connection events, and
+ *     INPUT_LOST where a queue overflowed (the events lost cannot be
+ *     named, only that there were some).  Hotplug (a matching port
+ *     appearing) is
  *     handled inside service_input().  Callbacks are only ever called from
  *     service_input(): connections made by open() are reported by the
  *     first call.
