@@ -19,10 +19,9 @@
  *     daemon's parser per source joins them), connection events, and
  *     INPUT_LOST where a queue overflowed (the events lost cannot be
  *     named, only that there were some).  Hotplug (a matching port
- *     appearing) is
- *     handled inside service_input().  Callbacks are only ever called from
- *     service_input(): connections made by open() are reported by the
- *     first call.
+ *     appearing) is handled inside service_input().  Callbacks are only
+ *     ever called from service_input(): connections made by open() are
+ *     reported by the first call.
  *     Backpressure: before each read of input, service_input() asks
  *     accepting() (when set); false means the daemon cannot take more now,
  *     and the backend reads nothing more in this call, leaving the input
