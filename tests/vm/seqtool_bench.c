@@ -29,7 +29,7 @@
  * route may send other messages too (a pitch bend before each note, an MTS
  * tuning change); they are counted, not timed.
  *
- * Several routes take turns, --block events each (default 500), until
+ * Several routes take turns, --block events each (default 100), until
  * each has had --count (default 10 000, rounded up to even): whatever else
  * runs on the machine then weighs on all of them alike, and a route that
  * is not playing only sleeps.  The notes walk up the keys --keys LO-HI
@@ -482,7 +482,7 @@ static void stream_options(int argc, char **argv, struct stream_opts *o)
 
 int cmd_stream(int argc, char **argv)
 {
-	struct stream_opts o = { .rate = 1000, .count = 10000, .hold = 4, .block = 500, .priority = 20,
+	struct stream_opts o = { .rate = 1000, .count = 10000, .hold = 4, .block = 100, .priority = 20,
 				 .key_lo = 48, .key_hi = 83, .channel = 1, .wait_s = 5 };
 	struct stream s = { 0 };
 

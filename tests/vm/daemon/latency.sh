@@ -7,7 +7,7 @@
 #   forwarder  `seqtool forward`, one thread that reads an event and writes
 #              it (the reference: what any user-space program must cost)
 #   bend, mts, mpe  latticed run with latency.conf and each method
-# The routes take turns of 500 events in one stream, so whatever else the
+# The routes take turns of 100 events in one stream, so whatever else the
 # host runs weighs on all of them alike.  The table (median and p99.9 of
 # each, their ratio to the forwarder's, events lost, CPU use while
 # streaming and at idle) goes to /out/latency-table.txt, which the stage
@@ -74,7 +74,7 @@ vm_check "the forwarder stops" vm_stop fwd
 # The table: one line per route and rate; ratios to the forwarder at that rate.
 {
 	echo "# latency in the test VM under qemu TCG (code runs 10-50x slower than on real hardware):"
-	echo "# $COUNT note events per route and rate, the routes taking turns of 500, scheduled by"
+	echo "# $COUNT note events per route and rate, the routes taking turns of 100, scheduled by"
 	echo "# the kernel and stamped by it at both ends, in ms; ratio: to the one-thread forwarder"
 	echo "# at the same rate; lost: never came back; other: messages besides the notes (bends,"
 	echo "# tuning changes); cpu: % of one core while streaming; idle: with no MIDI for ${IDLE_S} s"
