@@ -11,11 +11,13 @@
 #     counted by valgrind's callgrind (the inclusive cost of engine_bench's
 #     play_note_ons / play_note_offs / play_controls / play_wheel divided by
 #     the messages each played; 2*10^5 events per run);
-#   - the peak resident memory (max RSS) of `latticed render` on a ~1 MB
-#     Standard MIDI File of the same performance, when the binary has a
-#     render command (said so when it has none).
+#   - wall and CPU time and the peak resident memory (max RSS) of
+#     `latticed render` on generated Standard MIDI Files of about 1, 10 and
+#     50 MB (tests/render_bench.py; RENDER_SIZES=1,10 to change), beside
+#     the goal of twice the input plus 16 MB.
 # Needs valgrind (apt-get install valgrind) for the instruction counts and
-# python3 for the RSS; each part says so and is skipped when they are missing.
+# python3 for the renders; each part says so and is skipped when they are
+# missing.
 set -eu
 top=$(cd "$(dirname "$0")/.." && pwd)
 build=${1:-$top/build-bench}
@@ -56,26 +58,16 @@ per_kind() { # method function count-field -> instructions per message
 	fi
 }
 
-# 3. memory of an offline render
-smf="$tmp/performance.mid"
-"$bench" --write-smf "$smf" --events 300000 >"$tmp/smf.txt"
-smf_bytes=$(wc -c <"$smf")
-rss_note=""
-rss_kb=""
+# 3. time and memory of offline renders, 1, 10 and 50 MB files
+render_figures=""
 if ! "$latticed" render --help >/dev/null 2>&1; then
-	rss_note="skipped: $latticed has no render command yet"
+	render_figures="skipped: $latticed has no render command yet"
 elif ! command -v python3 >/dev/null 2>&1; then
-	rss_note="skipped: python3 is needed to read the peak RSS"
+	render_figures="skipped: python3 is needed to generate the files and read the peak RSS"
 else
-	rss_kb=$(python3 - "$latticed" render --config "$top/config/latticed.conf" "$smf" "$tmp/out.mid" <<'EOF'
-import resource, subprocess, sys
-done = subprocess.run(sys.argv[1:], stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
-if done.returncode != 0:
-    sys.stderr.write(done.stderr.decode(errors="replace"))
-    sys.exit(1)
-print(resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)
-EOF
-	) || rss_note="failed: latticed render exited non-zero (see above)"
+	render_figures=$(python3 "$top/tests/render_bench.py" "$latticed" "$top" "$tmp/render" \
+		--sizes "${RENDER_SIZES:-1,10,50}" | grep -v '^      ') ||
+		render_figures="failed: a render exited non-zero (see above)"
 fi
 
 cpu=$(sed -n 's/^model name[[:space:]]*: //p' /proc/cpuinfo 2>/dev/null | head -1)
@@ -96,11 +88,8 @@ for m in bend mts mpe; do
 done
 [ "$have_callgrind" = yes ] || echo "(instruction counts skipped: valgrind is not installed)"
 echo
-if [ -n "$rss_kb" ]; then
-	echo "latticed render, $smf_bytes-byte SMF ($(sed -n 's/.*bytes, \([0-9]*\) events/\1/p' "$tmp/smf.txt") events): max RSS $rss_kb KiB"
-else
-	echo "latticed render, $smf_bytes-byte SMF: $rss_note"
-fi
+echo "latticed render --config config/latticed.conf (bend, mts, mpe) on generated files of ~1, 10 and 50 MB:"
+echo "$render_figures"
 
 # arm64 (the Raspberry Pi target) under qemu-user: events per second of the
 # same performance, EMULATED (qemu translates every instruction, so this is

@@ -1,14 +1,17 @@
 #!/usr/bin/env python3
-"""Benchmark: `latticed render` on a 1 MB MIDI file; prints figures only.
+"""Benchmark: `latticed render` on generated MIDI files; prints figures only.
 
-  render_bench.py LATTICED_BINARY SOURCE_DIR WORKDIR
+  render_bench.py LATTICED_BINARY SOURCE_DIR WORKDIR [--sizes MB,MB,...]
 
-Generates (seeded, not committed) a format 1 file of about 1 MB: four
-tracks of overlapping chords and melodies on channel 1 with the sustain
-pedal, the pitch wheel, a controller stream and tempo changes, then renders
-it with each method and prints wall time, CPU time and peak resident
-memory of the latticed process (getrusage of the child).  It fails only if
-a render fails; the figures are for people, not a pass/fail limit.
+Generates (seeded, not committed) a format 1 file of about 1 MB (or each
+size given, default 1): four tracks of overlapping chords and melodies on
+channel 1 with the sustain pedal, the pitch wheel, a controller stream and
+tempo changes; a larger file repeats the 1 MB one's tracks end to end.  It
+renders each with each method and prints wall time, CPU time, the peak
+resident memory of the latticed process (GNU time, else getrusage of the
+child) and that memory beside the goal of twice the input plus 16 MB.  It
+fails only if a render fails; the figures are for people, not a pass/fail
+limit.
 """
 import os
 import random
@@ -76,6 +79,24 @@ def make_file(target_bytes):
     return head + b"".join(track(t) for t in tracks)
 
 
+def make_large(target_bytes):
+    """The 1 MB file's tracks, each repeated end to end (its running status
+    and delta times carry on from one copy to the next)."""
+    base = make_file(min(target_bytes, 1_000_000))
+    copies = max(1, round(target_bytes / len(base)))
+    if copies == 1:
+        return base
+    head, pos, tracks = base[:14], 14, []
+    while pos < len(base):
+        length = int.from_bytes(base[pos + 4:pos + 8], "big")
+        body = base[pos + 8:pos + 8 + length]
+        assert body.endswith(b"\x00\xFF\x2F\x00")
+        body = body[:-4] * copies + b"\x00\xFF\x2F\x00"
+        tracks.append(b"MTrk" + len(body).to_bytes(4, "big") + body)
+        pos += 8 + length
+    return head + b"".join(tracks)
+
+
 def render(binary, conf, src, dst):
     """Runs one render; peak RSS through GNU time when it is installed,
     because the kernel carries a parent's peak across fork and exec into
@@ -102,29 +123,36 @@ def render(binary, conf, src, dst):
 
 def main():
     binary, source, work = sys.argv[1], sys.argv[2], sys.argv[3]
+    sizes = [1]
+    if len(sys.argv) == 6 and sys.argv[4] == "--sizes":
+        sizes = [int(x) for x in sys.argv[5].split(",")]
     os.makedirs(work, exist_ok=True)
-    data = make_file(1_000_000)
-    src = os.path.join(work, "bench-1mb.mid")
-    with open(src, "wb") as f:
-        f.write(data)
     base = open(os.path.join(source, "config", "latticed.conf")).read()
-    print("input: %s, %d bytes" % (src, len(data)))
     failed = False
-    for method in ("bend", "mts", "mpe"):
-        conf = os.path.join(work, "bench-%s.conf" % method)
-        with open(conf, "w") as f:
-            f.write(re.sub(r"^method = bend$", "method = " + method, base, flags=re.M))
-        dst = os.path.join(work, "bench-%s-out.mid" % method)
-        rc, wall, usage, rss_mb, rss_note, err = render(binary, conf, src, dst)
-        if rc != 0:
-            print("%s: render failed (exit %d): %s" % (method, rc, err))
-            failed = True
-            continue
-        print("%-4s  wall %.3f s  cpu %.3f s  max RSS %.1f MB%s  output %d bytes"
-              % (method, wall, usage.ru_utime + usage.ru_stime, rss_mb, rss_note,
-                 os.path.getsize(dst)))
-        for line in err.strip().splitlines():
-            print("      " + line)
+    for mb in sizes:
+        data = make_large(mb * 1_000_000)
+        src = os.path.join(work, "bench-%dmb.mid" % mb)
+        with open(src, "wb") as f:
+            f.write(data)
+        bound = (2 * len(data) + (16 << 20)) / (1 << 20)
+        print("input: %s, %d bytes (memory goal: 2 x input + 16 MB = %.1f MB)" % (src, len(data), bound))
+        for method in ("bend", "mts", "mpe"):
+            conf = os.path.join(work, "bench-%s.conf" % method)
+            with open(conf, "w") as f:
+                f.write(re.sub(r"^method = bend$", "method = " + method, base, flags=re.M))
+            dst = os.path.join(work, "bench-%s-out.mid" % method)
+            rc, wall, usage, rss_mb, rss_note, err = render(binary, conf, src, dst)
+            if rc != 0:
+                print("%s: render failed (exit %d): %s" % (method, rc, err))
+                failed = True
+                continue
+            print("%-4s  wall %.3f s  cpu %.3f s  max RSS %.1f MB%s (%.2f x input)  output %d bytes"
+                  % (method, wall, usage.ru_utime + usage.ru_stime, rss_mb, rss_note,
+                     rss_mb * (1 << 20) / len(data), os.path.getsize(dst)))
+            for line in err.strip().splitlines():
+                print("      " + line)
+            os.unlink(dst)
+        os.unlink(src)
     return 1 if failed else 0
 
 

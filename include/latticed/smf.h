@@ -18,8 +18,11 @@
  *     does not belong in a file (F1..F6, F8..FE), fewer MTrk chunks than
  *     the header declares, an unknown format, a zero division.
  * Every error names the byte offset in the file and what was expected.
- * The reader allocates (an offline path, at load time); struct smf owns a
- * copy of the file, and every payload pointer points into that copy.
+ * smf_read allocates (an offline path, at load time); struct smf owns a
+ * copy of the file, and every payload pointer points into that copy.  A
+ * whole file can also be read in place, one event at a time, with an
+ * index of its tracks and a cursor per track (smf_index_read,
+ * smf_cursor_next): nothing is held but the caller's bytes.
  *
  * Writing is strict: MThd length 6, exact chunk lengths, running status only
  * between channel messages (never across meta or SysEx), SysEx as
@@ -148,21 +151,117 @@ static inline uint16_t smf_division_smpte(unsigned frames_per_second, unsigned t
 bool smf_read(const uint8_t *bytes, size_t length, struct smf *out, struct smf_error *err);
 void smf_free(struct smf *s);
 
+/* --- reading in place: an index of the tracks, a cursor per track ---------- */
+
+struct smf_track_info {
+	size_t offset;             /* file offset of the MTrk chunk */
+	size_t start, end;         /* its body, [start, end) */
+	size_t event_count;        /* its events, the end-of-track meta included */
+	bool has_end_of_track;
+	uint32_t end_tick;         /* as in struct smf_track */
+};
+
+struct smf_index {
+	uint16_t format;
+	uint16_t division;
+	size_t track_count;        /* as declared in MThd */
+	struct smf_track_info *tracks;
+};
+
+/* An event of track `track` (0-based), as a cursor gives it. */
+typedef void (*smf_event_fn)(void *context, size_t track, const struct smf_event *ev);
+
+/* Checks the whole file as smf_read does (the same errors, found in the
+ * same order) and notes where each track lies, copying nothing: the bytes
+ * must outlive the index and every cursor on it.  `each` (may be NULL)
+ * sees every event of every track in file order on the way, the bad one
+ * excepted.  smf_index_free releases *out. */
+bool smf_index_read(const uint8_t *bytes, size_t length, struct smf_index *out, smf_event_fn each,
+		    void *context, struct smf_error *err);
+void smf_index_free(struct smf_index *x);
+
+struct smf_cursor {
+	/* private state */
+	const uint8_t *file;
+	size_t pos, end;
+	size_t number, count;      /* 1-based track number, of count (for errors) */
+	uint32_t tick;
+	uint8_t running;
+};
+
+enum smf_cursor_result { SMF_CURSOR_EVENT, SMF_CURSOR_END, SMF_CURSOR_ERROR };
+
+void smf_cursor_init(struct smf_cursor *c, const uint8_t *bytes, const struct smf_index *x, size_t track);
+/* The track's next event, its end-of-track meta included, as smf_read
+ * would hold it, except that a SYSEX event's msg is left empty (status 0:
+ * see smf_event_is_complete_sysex); ERROR (with *err set) only on bytes
+ * smf_index_read would refuse. */
+enum smf_cursor_result smf_cursor_next(struct smf_cursor *c, struct smf_event *ev, struct smf_error *err);
+
+/* A SYSEX event holding a whole message: data bytes and a final F7, fewer
+ * than 65535 bytes (smf_read gives those a msg). */
+bool smf_event_is_complete_sysex(const struct smf_event *ev);
+
 /* The tempo of an FF 51 event in microseconds per quarter note; false if ev
  * is not a well-formed tempo event (length 3). */
 bool smf_event_tempo(const struct smf_event *ev, uint32_t *usec_per_quarter);
 
 /* --- writer -------------------------------------------------------------- */
 
+#define SMF_HEADER_BYTES 14        /* MThd, its length, format, tracks, division */
+#define SMF_CHUNK_HEADER_BYTES 8   /* MTrk and its length */
+
+/* One track's MTrk body.  Its bytes collect in a buffer the owner may
+ * empty whenever it likes (smf_track_writer_take, after copying
+ * w->bytes[0..w->length) elsewhere); w->size counts the whole body. */
+struct smf_track_writer {
+	uint8_t *bytes;            /* the body not yet taken */
+	size_t length, capacity;
+	uint64_t size;             /* the whole body so far, taken bytes included */
+	bool failed;
+	/* private state */
+	struct smf_error *error;   /* the owner's: why the first failing call
+	                            * failed (offset: body bytes before it) */
+	uint32_t last_tick;
+	uint8_t running_status;
+	uint16_t number;           /* 1-based, for messages */
+	bool ended;
+};
+
+/* Each call returns false on error; the writer then refuses every further
+ * call, and *error (given at init, the owner's; several writers may share
+ * one) says what went wrong.  The calls are those of struct smf_writer
+ * below, with the same rules and messages. */
+void smf_track_writer_init(struct smf_track_writer *w, uint16_t number, struct smf_error *error);
+bool smf_track_writer_midi(struct smf_track_writer *w, uint32_t tick, const struct midi_msg *m);
+bool smf_track_writer_sysex(struct smf_track_writer *w, uint32_t tick, const uint8_t *bytes,
+			    uint32_t length);
+bool smf_track_writer_escape(struct smf_track_writer *w, uint32_t tick, const uint8_t *bytes,
+			     uint32_t length);
+bool smf_track_writer_meta(struct smf_track_writer *w, uint32_t tick, uint8_t type,
+			   const uint8_t *data, uint32_t length);
+bool smf_track_writer_tempo(struct smf_track_writer *w, uint32_t tick, uint32_t usec_per_quarter);
+bool smf_track_writer_event(struct smf_track_writer *w, const struct smf_event *ev);
+/* The end-of-track event; the body is then complete (w->size <= UINT32_MAX). */
+bool smf_track_writer_end(struct smf_track_writer *w, uint32_t tick);
+/* The buffered bytes were copied elsewhere: the buffer starts empty again. */
+void smf_track_writer_take(struct smf_track_writer *w);
+void smf_track_writer_free(struct smf_track_writer *w);
+
+/* A file's header and a track's chunk header, for a writer of its own. */
+bool smf_header_check(uint16_t format, uint16_t division, struct smf_error *err);
+void smf_header_encode(uint8_t out[SMF_HEADER_BYTES], uint16_t format, uint16_t tracks, uint16_t division);
+void smf_chunk_header_encode(uint8_t out[SMF_CHUNK_HEADER_BYTES], uint32_t length);
+
+/* A whole file in one growing memory buffer. */
 struct smf_writer {
 	/* private state */
 	uint8_t *bytes;
 	size_t length, capacity;
 	uint16_t format, division;
 	uint16_t track_count;
-	size_t track_length_at;    /* where the open track's chunk length goes */
-	uint32_t last_tick;
-	uint8_t running_status;
+	struct smf_track_writer track;   /* the open track */
+	struct smf_error track_error;
 	bool in_track;
 	bool failed;
 	struct smf_error error;    /* why the first failing call failed */

@@ -1,14 +1,18 @@
 /*
  * smf_reader: Standard MIDI File bytes to struct smf.
  *
- * One pass over the chunks.  Each track is decoded into a growing event
- * array whose payload pointers point into our own copy of the file, so the
- * caller's buffer may go away after smf_read.  Complete SysEx packets are
- * then copied once more, with their F0 put back in front, into one block so
- * that each can be handed to the engine as an ordinary struct midi_msg.
- * All bounds are checked against the end of the current chunk before a byte
- * is read; errors name the offset of the byte that could not be read or did
- * not make sense.
+ * A cursor reads one track's events in place, one at a time, with no
+ * allocation: smf_index_read walks the chunks once with it, checking every
+ * event (and showing it to a caller that wants to see them) and noting
+ * where each track lies, so that a render can then merge
+ * the tracks with a cursor each, holding nothing but the file.  smf_read
+ * decodes each checked track into an event array whose payload pointers
+ * point into our own copy of the file, so the caller's buffer may go away
+ * after it.  Complete SysEx packets are then copied once more, with their
+ * F0 put back in front, into one block so that each can be handed to the
+ * engine as an ordinary struct midi_msg.  All bounds are checked against
+ * the end of the current chunk before a byte is read; errors name the
+ * offset of the byte that could not be read or did not make sense.
  */
 #include "latticed/smf.h"
 
@@ -60,170 +64,163 @@ static void chunk_name(const uint8_t *p, char out[5])
 	out[4] = '\0';
 }
 
-struct track_reader {
-	const uint8_t *file;
-	size_t pos, end;           /* inside the chunk body */
-	size_t number, count;      /* 1-based track number, of count */
-	struct smf_track *track;
-	size_t capacity;
-	struct smf_error *err;
-};
-
-static bool ends_inside(struct track_reader *r, size_t missing, const char *what)
+static bool ends_inside(struct smf_cursor *c, struct smf_error *err, size_t missing, const char *what)
 {
-	return fail_at(r->err, r->end, "track %zu of %zu ends inside an event, expected %zu more byte%s (%s)",
-		       r->number, r->count, missing, missing == 1 ? "" : "s", what);
+	return fail_at(err, c->end, "track %zu of %zu ends inside an event, expected %zu more byte%s (%s)",
+		       c->number, c->count, missing, missing == 1 ? "" : "s", what);
 }
 
-static bool read_vlq(struct track_reader *r, uint32_t *value, const char *what)
+static bool read_vlq(struct smf_cursor *c, struct smf_error *err, uint32_t *value, const char *what)
 {
 	size_t used;
-	switch (vlq_decode(r->file + r->pos, r->end - r->pos, value, &used)) {
+	switch (vlq_decode(c->file + c->pos, c->end - c->pos, value, &used)) {
 	case VLQ_OK:
-		r->pos += used;
+		c->pos += used;
 		return true;
 	case VLQ_TRUNCATED:
-		return fail_at(r->err, r->end,
+		return fail_at(err, c->end,
 			       "track %zu of %zu ends inside an event, expected at least 1 more byte (%s)",
-			       r->number, r->count, what);
+			       c->number, c->count, what);
 	case VLQ_TOO_LONG:
 		break;
 	}
-	return fail_at(r->err, r->pos, "track %zu of %zu: %s is longer than 4 bytes (bytes %02X %02X %02X %02X ...)",
-		       r->number, r->count, what, r->file[r->pos], r->file[r->pos + 1],
-		       r->file[r->pos + 2], r->file[r->pos + 3]);
-}
-
-static struct smf_event *new_event(struct track_reader *r)
-{
-	struct smf_track *t = r->track;
-	if (t->event_count == r->capacity) {
-		size_t cap = r->capacity ? r->capacity * 2 : 64;
-		struct smf_event *ev = realloc(t->events, cap * sizeof *ev);
-		if (!ev)
-			return NULL;
-		t->events = ev;
-		r->capacity = cap;
-	}
-	struct smf_event *ev = &t->events[t->event_count++];
-	memset(ev, 0, sizeof *ev);
-	return ev;
+	return fail_at(err, c->pos, "track %zu of %zu: %s is longer than 4 bytes (bytes %02X %02X %02X %02X ...)",
+		       c->number, c->count, what, c->file[c->pos], c->file[c->pos + 1],
+		       c->file[c->pos + 2], c->file[c->pos + 3]);
 }
 
 /* Payload of `length` bytes at the current position. */
-static bool take_payload(struct track_reader *r, struct smf_event *ev, uint32_t length,
-			 const char *what)
+static bool take_payload(struct smf_cursor *c, struct smf_error *err, struct smf_event *ev,
+			 uint32_t length, const char *what)
 {
-	size_t left = r->end - r->pos;
+	size_t left = c->end - c->pos;
 	if (length > left)
-		return ends_inside(r, length - left, what);
-	ev->data = r->file + r->pos;
+		return ends_inside(c, err, length - left, what);
+	ev->data = c->file + c->pos;
 	ev->length = length;
-	r->pos += length;
+	c->pos += length;
 	return true;
 }
 
-static bool read_channel_message(struct track_reader *r, struct smf_event *ev, uint8_t status)
+static bool read_channel_message(struct smf_cursor *c, struct smf_error *err, struct smf_event *ev,
+				 uint8_t status)
 {
 	int n = midi_status_data_length(status);
-	size_t left = r->end - r->pos;
+	size_t left = c->end - c->pos;
 	if ((size_t)n > left)
-		return ends_inside(r, (size_t)n - left, "data bytes of a channel message");
+		return ends_inside(c, err, (size_t)n - left, "data bytes of a channel message");
 	for (int i = 0; i < n; i++) {
-		uint8_t b = r->file[r->pos + (size_t)i];
+		uint8_t b = c->file[c->pos + (size_t)i];
 		if (b & 0x80)
-			return fail_at(r->err, r->pos + (size_t)i,
+			return fail_at(err, c->pos + (size_t)i,
 				       "track %zu of %zu: expected data byte %d of %d for status %02X, found %02X",
-				       r->number, r->count, i + 1, n, status, b);
+				       c->number, c->count, i + 1, n, status, b);
 	}
 	ev->kind = SMF_EVENT_MIDI;
-	ev->msg = midi_msg_make(status, n > 0 ? r->file[r->pos] : 0, n > 1 ? r->file[r->pos + 1] : 0);
-	ev->data = r->file + r->pos;
+	ev->msg = midi_msg_make(status, n > 0 ? c->file[c->pos] : 0, n > 1 ? c->file[c->pos + 1] : 0);
+	ev->data = c->file + c->pos;
 	ev->length = (uint32_t)n;
-	r->pos += (size_t)n;
+	c->pos += (size_t)n;
 	return true;
 }
 
-static bool read_track(struct track_reader *r)
+/* A meta, SysEx or escape event after its status byte b. */
+static bool read_packet(struct smf_cursor *c, struct smf_error *err, struct smf_event *ev, uint8_t b)
 {
-	uint8_t running = 0;
-	uint32_t tick = 0;
-	struct smf_track *t = r->track;
-
-	while (r->pos < r->end) {
-		size_t event_at = r->pos;
-		uint32_t delta;
-		if (!read_vlq(r, &delta, "delta time"))
+	uint32_t length;
+	if (b == 0xFF) {
+		if (c->pos >= c->end)
+			return ends_inside(c, err, 1, "meta event type");
+		ev->kind = SMF_EVENT_META;
+		ev->meta_type = c->file[c->pos++];
+		if (!read_vlq(c, err, &length, "meta event length") ||
+		    !take_payload(c, err, ev, length, "meta event data"))
 			return false;
-		if (delta > UINT32_MAX - tick)
-			return fail_at(r->err, event_at, "track %zu of %zu: absolute time exceeds %u ticks",
-				       r->number, r->count, UINT32_MAX);
-		tick += delta;
-		if (r->pos >= r->end)
-			return ends_inside(r, 1, "status or data byte after a delta time");
-
-		struct smf_event *ev = new_event(r);
-		if (!ev)
-			return fail_at(r->err, event_at, "out of memory reading track %zu", r->number);
-		ev->tick = tick;
-		ev->offset = event_at;
-
-		size_t status_at = r->pos;
-		uint8_t b = r->file[r->pos];
-		if (b < 0x80) {
-			if (!running)
-				return fail_at(r->err, status_at,
-					       "track %zu of %zu: data byte %02X with no running status, expected a status byte",
-					       r->number, r->count, b);
-			if (!read_channel_message(r, ev, running))
-				return false;
-			continue;
-		}
-		r->pos++;
-		if (b < 0xF0) {
-			running = b;
-			if (!read_channel_message(r, ev, b))
-				return false;
-			continue;
-		}
-		uint32_t length;
-		switch (b) {
-		case 0xFF:
-			if (r->pos >= r->end)
-				return ends_inside(r, 1, "meta event type");
-			ev->kind = SMF_EVENT_META;
-			ev->meta_type = r->file[r->pos++];
-			if (!read_vlq(r, &length, "meta event length") ||
-			    !take_payload(r, ev, length, "meta event data"))
-				return false;
-			if (ev->meta_type == SMF_META_END_OF_TRACK) {
-				t->has_end_of_track = true;
-				t->end_tick = tick;
-				r->pos = r->end;   /* whatever follows is not part of the track */
-				return true;
-			}
-			break;
-		case 0xF0:
-		case 0xF7:
-			ev->kind = b == 0xF0 ? SMF_EVENT_SYSEX : SMF_EVENT_ESCAPE;
-			if (!read_vlq(r, &length, b == 0xF0 ? "SysEx length" : "escape length") ||
-			    !take_payload(r, ev, length, b == 0xF0 ? "SysEx bytes" : "escape bytes"))
-				return false;
-			break;
-		default:
-			return fail_at(r->err, status_at,
-				       "track %zu of %zu: status byte %02X does not belong in a file, expected a channel message, F0, F7 or FF",
-				       r->number, r->count, b);
-		}
+		if (ev->meta_type == SMF_META_END_OF_TRACK)
+			c->pos = c->end;   /* whatever follows is not part of the track */
+		return true;
 	}
-	t->end_tick = t->event_count ? t->events[t->event_count - 1].tick : 0;
-	return true;
+	ev->kind = b == 0xF0 ? SMF_EVENT_SYSEX : SMF_EVENT_ESCAPE;
+	return read_vlq(c, err, &length, b == 0xF0 ? "SysEx length" : "escape length") &&
+	       take_payload(c, err, ev, length, b == 0xF0 ? "SysEx bytes" : "escape bytes");
+}
+
+/* The event at the cursor (its delta time read); false with err set. */
+static bool read_event(struct smf_cursor *c, struct smf_error *err, struct smf_event *ev)
+{
+	size_t status_at = c->pos;
+	uint8_t b = c->file[c->pos];
+	if (b < 0x80) {
+		if (!c->running)
+			return fail_at(err, status_at,
+				       "track %zu of %zu: data byte %02X with no running status, expected a status byte",
+				       c->number, c->count, b);
+		return read_channel_message(c, err, ev, c->running);
+	}
+	c->pos++;
+	if (b < 0xF0) {
+		c->running = b;
+		return read_channel_message(c, err, ev, b);
+	}
+	if (b == 0xFF || b == 0xF0 || b == 0xF7)
+		return read_packet(c, err, ev, b);
+	return fail_at(err, status_at,
+		       "track %zu of %zu: status byte %02X does not belong in a file, expected a channel message, F0, F7 or FF",
+		       c->number, c->count, b);
+}
+
+void smf_cursor_init(struct smf_cursor *c, const uint8_t *bytes, const struct smf_index *x, size_t track)
+{
+	const struct smf_track_info *t = &x->tracks[track];
+	*c = (struct smf_cursor){ .file = bytes, .pos = t->start, .end = t->end, .number = track + 1,
+				  .count = x->track_count };
+}
+
+enum smf_cursor_result smf_cursor_next(struct smf_cursor *c, struct smf_event *ev, struct smf_error *err)
+{
+	if (c->pos >= c->end)
+		return SMF_CURSOR_END;
+	size_t event_at = c->pos;
+	uint32_t delta;
+	if (!read_vlq(c, err, &delta, "delta time"))
+		return SMF_CURSOR_ERROR;
+	if (delta > UINT32_MAX - c->tick) {
+		fail_at(err, event_at, "track %zu of %zu: absolute time exceeds %u ticks", c->number,
+			c->count, UINT32_MAX);
+		return SMF_CURSOR_ERROR;
+	}
+	c->tick += delta;
+	if (c->pos >= c->end) {
+		ends_inside(c, err, 1, "status or data byte after a delta time");
+		return SMF_CURSOR_ERROR;
+	}
+	*ev = (struct smf_event){ .tick = c->tick, .offset = event_at };
+	return read_event(c, err, ev) ? SMF_CURSOR_EVENT : SMF_CURSOR_ERROR;
+}
+
+/* Every event of one track, shown to `each`; fills in what the index keeps. */
+static bool check_track(struct smf_cursor *c, struct smf_track_info *t, smf_event_fn each, void *context,
+			struct smf_error *err)
+{
+	struct smf_event ev;
+	enum smf_cursor_result r;
+	uint32_t last = 0;
+	while ((r = smf_cursor_next(c, &ev, err)) == SMF_CURSOR_EVENT) {
+		t->event_count++;
+		last = ev.tick;
+		if (each)
+			each(context, c->number - 1, &ev);
+		if (ev.kind == SMF_EVENT_META && ev.meta_type == SMF_META_END_OF_TRACK)
+			t->has_end_of_track = true;
+	}
+	t->end_tick = last;
+	return r == SMF_CURSOR_END;
 }
 
 /* A packet that is a whole SysEx message as MIDI 1.0 defines it: data
  * bytes and a final F7.  One with a status byte inside is kept as an event
  * but never handed out as a message (a synth would read it as two). */
-static bool is_complete_sysex(const struct smf_event *ev)
+bool smf_event_is_complete_sysex(const struct smf_event *ev)
 {
 	if (ev->kind != SMF_EVENT_SYSEX || ev->length < 1 || ev->length >= UINT16_MAX ||
 	    ev->data[ev->length - 1] != MIDI_SYSEX_END)
@@ -240,7 +237,7 @@ static bool build_sysex_messages(struct smf *s)
 	size_t total = 0;
 	for (size_t i = 0; i < s->track_count; i++)
 		for (size_t k = 0; k < s->tracks[i].event_count; k++)
-			if (is_complete_sysex(&s->tracks[i].events[k]))
+			if (smf_event_is_complete_sysex(&s->tracks[i].events[k]))
 				total += 1 + s->tracks[i].events[k].length;
 	if (total == 0)
 		return true;
@@ -251,7 +248,7 @@ static bool build_sysex_messages(struct smf *s)
 	for (size_t i = 0; i < s->track_count; i++) {
 		for (size_t k = 0; k < s->tracks[i].event_count; k++) {
 			struct smf_event *ev = &s->tracks[i].events[k];
-			if (!is_complete_sysex(ev))
+			if (!smf_event_is_complete_sysex(ev))
 				continue;
 			p[0] = MIDI_SYSEX;
 			memcpy(p + 1, ev->data, ev->length);
@@ -262,8 +259,8 @@ static bool build_sysex_messages(struct smf *s)
 	return true;
 }
 
-static bool read_header(struct smf *s, const uint8_t *bytes, size_t length, size_t *pos,
-			uint16_t *ntracks, struct smf_error *err)
+static bool read_header(struct smf_index *x, const uint8_t *bytes, size_t length, size_t *pos,
+			struct smf_error *err)
 {
 	if (length < 4 || memcmp(bytes, "MThd", 4) != 0)
 		return fail_at(err, 0, "not a Standard MIDI File: expected the chunk type \"MThd\" at the start");
@@ -276,89 +273,131 @@ static bool read_header(struct smf *s, const uint8_t *bytes, size_t length, size
 	if (hlen > length - 8)
 		return fail_at(err, 4, "MThd length %u runs past the end of the file, expected %zu more bytes",
 			       hlen, (size_t)hlen - (length - 8));
-	s->format = be16(bytes + 8);
-	*ntracks = be16(bytes + 10);
-	s->division = be16(bytes + 12);
-	if (s->format > 2)
-		return fail_at(err, 8, "format %u is unknown, expected 0, 1 or 2", s->format);
-	if (smf_division_is_smpte(s->division)) {
-		unsigned fps = smf_division_frames_per_second(s->division);
+	x->format = be16(bytes + 8);
+	x->track_count = be16(bytes + 10);
+	x->division = be16(bytes + 12);
+	if (x->format > 2)
+		return fail_at(err, 8, "format %u is unknown, expected 0, 1 or 2", x->format);
+	if (smf_division_is_smpte(x->division)) {
+		unsigned fps = smf_division_frames_per_second(x->division);
 		if (fps != 24 && fps != 25 && fps != 29 && fps != 30)
 			return fail_at(err, 12, "SMPTE division byte %02X is not -24, -25, -29 or -30 frames per second",
-				       s->division >> 8);
-		if (smf_division_ticks_per_frame(s->division) == 0)
+				       x->division >> 8);
+		if (smf_division_ticks_per_frame(x->division) == 0)
 			return fail_at(err, 13, "SMPTE division has 0 ticks per frame, expected at least 1");
-	} else if (s->division == 0) {
+	} else if (x->division == 0) {
 		return fail_at(err, 12, "division is 0 ticks per quarter note, expected at least 1");
 	}
 	*pos = 8 + (size_t)hlen;
 	return true;
 }
 
+/* The chunk header at pos: false with err set, or its length in *clen. */
+static bool read_chunk_header(const uint8_t *bytes, size_t length, size_t pos, size_t found,
+			      size_t declared, uint32_t *clen, struct smf_error *err)
+{
+	size_t left = length - pos;
+	if (left == 0)
+		return fail_at(err, pos, "file ends after %zu of %zu tracks, expected another MTrk chunk",
+			       found, declared);
+	if (left < 8)
+		return fail_at(err, pos, "file ends inside a chunk header, expected %zu more bytes", 8 - left);
+	char name[5];
+	chunk_name(bytes + pos, name);
+	*clen = be32(bytes + pos + 4);
+	if (*clen > left - 8)
+		return fail_at(err, pos + 4, "%s chunk length %u runs past the end of the file, expected %zu more bytes",
+			       name, *clen, (size_t)*clen - (left - 8));
+	return true;
+}
+
+bool smf_index_read(const uint8_t *bytes, size_t length, struct smf_index *out, smf_event_fn each,
+		    void *context, struct smf_error *err)
+{
+	struct smf_index x = { 0 };
+	size_t pos = 0, found = 0;
+	*out = x;
+	if (!read_header(&x, bytes, length, &pos, err))
+		return false;
+	x.tracks = calloc(x.track_count ? x.track_count : 1, sizeof *x.tracks);
+	if (!x.tracks)
+		return fail_at(err, 0, "out of memory for %zu tracks", x.track_count);
+	while (found < x.track_count) {
+		uint32_t clen = 0;
+		if (!read_chunk_header(bytes, length, pos, found, x.track_count, &clen, err))
+			goto fail;
+		if (memcmp(bytes + pos, "MTrk", 4) == 0) {
+			struct smf_track_info *t = &x.tracks[found];
+			*t = (struct smf_track_info){ .offset = pos, .start = pos + 8, .end = pos + 8 + clen };
+			struct smf_cursor c;
+			smf_cursor_init(&c, bytes, &x, found++);
+			if (!check_track(&c, t, each, context, err))
+				goto fail;
+		}
+		pos += 8 + (size_t)clen;
+	}
+	*out = x;
+	return true;
+fail:
+	smf_index_free(&x);
+	return false;
+}
+
+void smf_index_free(struct smf_index *x)
+{
+	free(x->tracks);
+	*x = (struct smf_index){ 0 };
+}
+
+/* Decodes a track the index has checked into its event array. */
+static bool load_track(struct smf *s, const struct smf_index *x, size_t track, struct smf_error *err)
+{
+	struct smf_track *t = &s->tracks[track];
+	const struct smf_track_info *info = &x->tracks[track];
+	t->offset = info->offset;
+	t->has_end_of_track = info->has_end_of_track;
+	t->end_tick = info->end_tick;
+	t->events = malloc((info->event_count ? info->event_count : 1) * sizeof *t->events);
+	if (!t->events)
+		return fail_at(err, info->offset, "out of memory reading track %zu", track + 1);
+	struct smf_cursor c;
+	smf_cursor_init(&c, s->bytes, x, track);
+	while (t->event_count < info->event_count &&
+	       smf_cursor_next(&c, &t->events[t->event_count], err) == SMF_CURSOR_EVENT)
+		t->event_count++;
+	return true;
+}
+
 bool smf_read(const uint8_t *bytes, size_t length, struct smf *out, struct smf_error *err)
 {
 	struct smf s = { 0 };
-	uint16_t ntracks = 0;
-	size_t pos = 0;
+	struct smf_index x;
 	*out = s;
-	if (!read_header(&s, bytes, length, &pos, &ntracks, err))
+	if (!smf_index_read(bytes, length, &x, NULL, NULL, err))
 		return false;
-
-	s.bytes = malloc(length);
-	s.tracks = calloc(ntracks ? ntracks : 1, sizeof *s.tracks);
+	s.format = x.format;
+	s.division = x.division;
+	s.bytes = malloc(length ? length : 1);
+	s.tracks = calloc(x.track_count ? x.track_count : 1, sizeof *s.tracks);
 	if (!s.bytes || !s.tracks) {
+		smf_index_free(&x);
 		smf_free(&s);
 		return fail_at(err, 0, "out of memory for a file of %zu bytes", length);
 	}
 	memcpy(s.bytes, bytes, length);
 	s.length = length;
-
-	while (s.track_count < ntracks) {
-		size_t left = length - pos;
-		if (left == 0) {
-			fail_at(err, pos, "file ends after %zu of %u tracks, expected another MTrk chunk",
-				s.track_count, ntracks);
-			goto fail;
-		}
-		if (left < 8) {
-			fail_at(err, pos, "file ends inside a chunk header, expected %zu more bytes",
-				8 - left);
-			goto fail;
-		}
-		char name[5];
-		chunk_name(s.bytes + pos, name);
-		uint32_t clen = be32(s.bytes + pos + 4);
-		if (clen > left - 8) {
-			fail_at(err, pos + 4, "%s chunk length %u runs past the end of the file, expected %zu more bytes",
-				name, clen, (size_t)clen - (left - 8));
-			goto fail;
-		}
-		if (memcmp(s.bytes + pos, "MTrk", 4) == 0) {
-			struct track_reader r = {
-				.file = s.bytes,
-				.pos = pos + 8,
-				.end = pos + 8 + clen,
-				.number = s.track_count + 1,
-				.count = ntracks,
-				.track = &s.tracks[s.track_count],
-				.err = err,
-			};
-			r.track->offset = pos;
-			s.track_count++;
-			if (!read_track(&r))
-				goto fail;
-		}
-		pos += 8 + (size_t)clen;
-	}
-	if (!build_sysex_messages(&s)) {
-		fail_at(err, 0, "out of memory for SysEx messages");
-		goto fail;
+	bool ok = true;
+	for (; ok && s.track_count < x.track_count; s.track_count++)
+		ok = load_track(&s, &x, s.track_count, err);
+	smf_index_free(&x);
+	if (ok && !build_sysex_messages(&s))
+		ok = fail_at(err, 0, "out of memory for SysEx messages");
+	if (!ok) {
+		smf_free(&s);
+		return false;
 	}
 	*out = s;
 	return true;
-fail:
-	smf_free(&s);
-	return false;
 }
 
 void smf_free(struct smf *s)

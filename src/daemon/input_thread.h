@@ -139,6 +139,7 @@ struct input_thread {
 	bool quit;
 	bool shutting_down;              /* the final panic: wait for queue room */
 	bool wake_output, wake_main;
+	bool borrowed;                   /* holds the backend's output side (output_thread.h) */
 	uint32_t reloads;
 	uint32_t forgotten_serial[MIDI_IO_MAX_OUTPUTS];
 	int retired_count;

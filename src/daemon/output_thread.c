@@ -5,7 +5,10 @@
  * has written the eventfd after the clear, and the next poll returns at
  * once.  room_wanted works the same way round: the input thread stores
  * its level and then looks at the fill again; this thread releases slots
- * and then looks at the level, so one of the two sees the other.
+ * and then looks at the level, so one of the two sees the other.  So does
+ * the side's hand-back: this thread marks side_wanted and then tries to
+ * take the side again; the input thread frees the side and then looks at
+ * side_wanted (all sequentially consistent).
  */
 #include "output_thread.h"
 
@@ -22,6 +25,9 @@
 #define RETRY_MAX_MS 4
 #define BATCH_MESSAGES 256           /* per output per round, so none waits long */
 #define BLOCKED_LOG_INTERVAL_MS 1000
+
+/* who holds the backend's output side */
+enum { SIDE_FREE, SIDE_OUTPUT_THREAD, SIDE_INPUT_THREAD };
 
 void wake_fd_signal(int fd)
 {
@@ -45,6 +51,9 @@ void wake_fd_clear(int fd)
 void output_thread_init(struct output_thread *t)
 {
 	atomic_init(&t->stop, false);
+	atomic_init(&t->side, SIDE_FREE);
+	atomic_init(&t->side_wanted, false);
+	t->borrowed_sent = false;
 	for (int i = 0; i < MIDI_IO_MAX_OUTPUTS; i++) {
 		atomic_init(&t->sent[i], 0);
 		atomic_init(&t->send_drops[i], 0);
@@ -173,6 +182,63 @@ static void give_up(struct output_thread *t)
 	wake_fd_signal(t->main_wake_fd);
 }
 
+/* ---- the side ------------------------------------------------------------------ */
+
+static bool take_side(struct output_thread *t, int who)
+{
+	int expected = SIDE_FREE;
+	return atomic_compare_exchange_strong(&t->side, &expected, who);
+}
+
+/* For this thread; false while the input thread holds the side (it wakes
+ * this thread when it gives it back). */
+static bool take_side_here(struct output_thread *t)
+{
+	if (!take_side(t, SIDE_OUTPUT_THREAD)) {
+		atomic_store(&t->side_wanted, true);
+		if (!take_side(t, SIDE_OUTPUT_THREAD))
+			return false;
+	}
+	atomic_store(&t->side_wanted, false);
+	return true;
+}
+
+bool output_thread_borrow(struct output_thread *t)
+{
+	if (!take_side(t, SIDE_INPUT_THREAD))
+		return false;
+	t->borrowed_sent = false;
+	return true;
+}
+
+bool output_thread_send_borrowed(struct output_thread *t, int output, const uint8_t *bytes,
+				 size_t length)
+{
+	if (!send_one(t, output, bytes, length)) {
+		atomic_fetch_add_explicit(&t->refused[output], 1, memory_order_relaxed);
+		return false;
+	}
+	atomic_fetch_add_explicit(&t->sent[output], 1, memory_order_relaxed);
+	t->borrowed_sent = true;
+	return true;
+}
+
+void output_thread_give_back(struct output_thread *t)
+{
+	bool wake = false;
+	if (t->borrowed_sent || t->held_back) {
+		t->held_back = !t->backend->flush(t->io);
+		wake = t->held_back; /* this thread retries it */
+	}
+	atomic_store(&t->side, SIDE_FREE);
+	if (atomic_exchange(&t->side_wanted, false))
+		wake = true;
+	if (wake)
+		wake_fd_signal(t->wake_fd);
+}
+
+/* ---- the loop ------------------------------------------------------------------ */
+
 void *output_thread_run(void *arg)
 {
 	struct output_thread *t = arg;
@@ -182,7 +248,11 @@ void *output_thread_run(void *arg)
 	for (;;) {
 		wake_fd_clear(t->wake_fd);
 		bool stopping = atomic_load_explicit(&t->stop, memory_order_acquire);
-		bool blocked, more;
+		if (!take_side_here(t)) {
+			(void)poll(&pfd, 1, -1);
+			continue;
+		}
+		bool blocked, more, done = false;
 		if (drain(t, &blocked, &more) > 0)
 			retry_ms = RETRY_FIRST_MS;
 		else if (blocked && retry_ms < RETRY_MAX_MS)
@@ -191,13 +261,15 @@ void *output_thread_run(void *arg)
 			/* the input thread has stopped: nothing more can arrive */
 			if (!stop_deadline)
 				stop_deadline = monotonic_ms() + STOP_RETRY_MS;
-			if (left_over(t) == 0 && !t->held_back)
-				break;
-			if (monotonic_ms() >= stop_deadline) {
+			done = left_over(t) == 0 && !t->held_back;
+			if (!done && monotonic_ms() >= stop_deadline) {
 				give_up(t);
-				break;
+				done = true;
 			}
 		}
+		atomic_store(&t->side, SIDE_FREE);
+		if (done)
+			break;
 		/* idle (nothing queued, nothing held back): sleep until woken */
 		int timeout = more ? 0 : blocked ? retry_ms : -1;
 		(void)poll(&pfd, 1, timeout);

@@ -1,12 +1,11 @@
 /*
  * render_cmd: `latticed render` (model in render_cmd.h).
  *
- * The output is built per track in memory first, because the writer emits
- * one track after another while the engine's messages arrive in the merged
- * order of all tracks.  Each output event is small: a channel message is
- * kept inline, a SysEx the engine sent (its buffer is reused at once) is
- * copied into one growing arena, an input event copied unchanged is a
- * pointer to the parsed input, which lives until the file is written.
+ * Memory.  The file is read into memory once and never copied: an index
+ * of its tracks (smf_index_read, which checks every event first, so a
+ * broken file fails before anything is rendered, with the reader's own
+ * message) and a cursor per track merge the tracks as they are read; the
+ * output is built per track in bounded memory (render_out.c).
  *
  * Hanging notes are released through the engine as the player would
  * release them: a note-off for every key still down (retuned or passed
@@ -24,46 +23,27 @@
 #include <unistd.h>
 
 #include "latticed/midi_msg.h"
+#include "latticed/smf.h"
 #include "notice_text.h"
+#include "render_out.h"
 #include "smf_file.h"
 
 #define CC_SUSTAIN 64
 #define CC_SOSTENUTO 66
+#define SYSEX_MESSAGE_MAX (1 + UINT16_MAX)
 
-enum out_kind { OUT_INPUT, OUT_MIDI, OUT_SYSEX };
-
-/* 16 bytes: a 1 MB file makes half a million of them */
-struct out_event {
-	uint32_t tick;
-	uint8_t kind;              /* enum out_kind */
-	uint8_t status, data[2];   /* OUT_MIDI */
-	union {
-		const struct smf_event *input;          /* OUT_INPUT */
-		struct { uint32_t at, length; } sysex;  /* OUT_SYSEX: in the arena */
-	} u;
-};
-
-struct out_track {
-	struct out_event *events;
-	size_t count, capacity;
-	uint32_t end_tick;
-	bool release_set;          /* release_tick is chosen */
-	uint32_t release_tick;     /* where what hangs in this track is released */
-};
-
-/* One input event in the merged order. */
-struct merged {
-	uint32_t tick;
-	uint32_t track;
-	size_t index;
+/* What a track needs for releasing what hangs there. */
+struct release_point {
+	bool set;                  /* tick is chosen */
+	uint32_t tick;             /* where what hangs in this track is released */
 };
 
 struct render {
-	const struct smf *in;
-	struct out_track *tracks;
-	uint8_t *arena;
-	size_t arena_length, arena_capacity;
-	bool out_of_memory;
+	const uint8_t *bytes;             /* the input file */
+	const struct smf_index *in;
+	struct render_out out;
+	struct release_point *release;    /* per track */
+	uint8_t *sysex;                   /* F0 and a SysEx packet, for the engine */
 	/* where the engine's messages go now */
 	size_t track;
 	uint32_t tick;
@@ -73,132 +53,173 @@ struct render {
 	uint32_t pedal_track[16];
 	struct engine *engine;
 	struct render_report *report;
+	uint8_t hears[(UINT16_MAX + 1) / 8]; /* the track holds an event the engine hears */
 };
-
-static bool grow(void **p, size_t *capacity, size_t need, size_t item)
-{
-	if (need <= *capacity)
-		return true;
-	size_t cap = *capacity ? *capacity : 64;
-	while (cap < need) {
-		if (cap > SIZE_MAX / 2 / item)
-			return false;
-		cap *= 2;
-	}
-	void *q = realloc(*p, cap * item);
-	if (!q)
-		return false;
-	*p = q;
-	*capacity = cap;
-	return true;
-}
-
-static void push(struct render *r, size_t track, const struct out_event *ev)
-{
-	struct out_track *t = &r->tracks[track];
-	if (!grow((void **)&t->events, &t->capacity, t->count + 1, sizeof *t->events)) {
-		r->out_of_memory = true;
-		return;
-	}
-	t->events[t->count++] = *ev;
-	r->report->events_out++;
-}
 
 static void on_emit(void *context, const struct midi_msg *m)
 {
 	struct render *r = context;
-	struct out_event ev = { .tick = r->tick };
-	if (m->status == MIDI_SYSEX) {
-		if (r->arena_length + m->sysex_length > UINT32_MAX ||
-		    !grow((void **)&r->arena, &r->arena_capacity,
-			  r->arena_length + m->sysex_length, 1)) {
-			r->out_of_memory = true;
-			return;
-		}
-		memcpy(r->arena + r->arena_length, m->sysex, m->sysex_length);
-		ev.kind = OUT_SYSEX;
-		ev.u.sysex.at = (uint32_t)r->arena_length;
-		ev.u.sysex.length = m->sysex_length;
-		r->arena_length += m->sysex_length;
-	} else {
-		ev.kind = OUT_MIDI;
-		ev.status = m->status;
-		ev.data[0] = m->data[0];
-		ev.data[1] = m->data[1];
-	}
-	push(r, r->track, &ev);
-}
-
-static int merged_compare(const void *a, const void *b)
-{
-	const struct merged *x = a, *y = b;
-	if (x->tick != y->tick)
-		return x->tick < y->tick ? -1 : 1;
-	if (x->track != y->track)
-		return x->track < y->track ? -1 : 1;
-	return x->index < y->index ? -1 : (x->index > y->index ? 1 : 0);
+	render_out_midi(&r->out, r->track, r->tick, m);
 }
 
 /* ---- what a strict file cannot hold ---------------------------------------- */
 
-static void left_out(struct render *r, const struct smf_event *ev, const char *why)
+/* NULL when the event can be written, else why not (in why). */
+static const char *unwritable(const struct smf_event *ev, char *why, size_t size)
 {
-	struct render_report *rep = r->report;
-	if (rep->left_out < RENDER_LEFT_OUT_SHOWN)
-		snprintf(rep->left_out_text[rep->left_out], RENDER_LINE_MAX, "byte %zu: %s",
-			 ev->offset, why);
-	rep->left_out++;
-}
-
-/* True when the event can be written; otherwise notes why it is left out. */
-static bool writable(struct render *r, const struct smf_event *ev)
-{
-	char why[RENDER_LINE_MAX - 32];
 	if (ev->kind == SMF_EVENT_META) {
 		uint32_t expected = 0;
 		if (ev->meta_type & 0x80) {
-			snprintf(why, sizeof why, "meta event type %02X, expected 00..7F; left out",
-				 ev->meta_type);
-			left_out(r, ev, why);
-			return false;
+			snprintf(why, size, "meta event type %02X, expected 00..7F; left out", ev->meta_type);
+			return why;
 		}
 		if (!smf_meta_length_ok(ev->meta_type, ev->length, &expected)) {
-			snprintf(why, sizeof why,
-				 "meta event %02X with %u data bytes, expected %u; left out",
+			snprintf(why, size, "meta event %02X with %u data bytes, expected %u; left out",
 				 ev->meta_type, ev->length, expected);
-			left_out(r, ev, why);
-			return false;
+			return why;
 		}
-		uint32_t tempo;
-		if (smf_event_tempo(ev, &tempo) && tempo == 0 && r->report->zero_tempos++ == 0)
-			r->report->zero_tempo_offset = ev->offset;
-		return true;
+		return NULL;
 	}
 	if (ev->kind == SMF_EVENT_SYSEX) {
 		for (uint32_t i = 0; i < ev->length; i++) {
 			uint8_t b = ev->data[i];
 			if ((b & 0x80) && !(i + 1 == ev->length && b == MIDI_SYSEX_END)) {
-				snprintf(why, sizeof why,
+				snprintf(why, size,
 					 "SysEx byte %u is %02X, expected data bytes and a final F7; left out",
 					 i + 1, b);
-				left_out(r, ev, why);
-				return false;
+				return why;
 			}
 		}
 	}
+	return NULL;
+}
+
+/* As unwritable(), but noting it in the report (the survey, in file order). */
+static bool writable(struct render *r, const struct smf_event *ev)
+{
+	struct render_report *rep = r->report;
+	char why[RENDER_LINE_MAX - 32];
+	if (unwritable(ev, why, sizeof why)) {
+		if (rep->left_out < RENDER_LEFT_OUT_SHOWN)
+			snprintf(rep->left_out_text[rep->left_out], RENDER_LINE_MAX, "byte %zu: %s",
+				 ev->offset, why);
+		rep->left_out++;
+		return false;
+	}
+	uint32_t tempo;
+	if (smf_event_tempo(ev, &tempo) && tempo == 0 && rep->zero_tempos++ == 0)
+		rep->zero_tempo_offset = ev->offset;
 	return true;
 }
 
 /* Channel messages and complete SysEx messages go to the engine. */
 static bool engine_hears(const struct smf_event *ev)
 {
-	return ev->kind == SMF_EVENT_MIDI ||
-	       (ev->kind == SMF_EVENT_SYSEX && ev->msg.status == MIDI_SYSEX);
+	return ev->kind == SMF_EVENT_MIDI || smf_event_is_complete_sysex(ev);
 }
 
 static bool is_end_of_track(const struct smf_event *ev)
 {
 	return ev->kind == SMF_EVENT_META && ev->meta_type == SMF_META_END_OF_TRACK;
+}
+
+/* Each event as the index is read, in file order: what is left out, and
+ * which tracks hold something the engine hears. */
+static void survey(void *context, size_t track, const struct smf_event *ev)
+{
+	struct render *r = context;
+	if (is_end_of_track(ev))
+		return;
+	r->report->events_in++;
+	if (writable(r, ev) && engine_hears(ev))
+		r->hears[track / 8] |= (uint8_t)(1u << (track % 8));
+}
+
+static bool track_hears(const struct render *r, size_t track)
+{
+	return r->hears[track / 8] & (1u << (track % 8));
+}
+
+/* ---- merging the tracks ------------------------------------------------------- */
+
+struct head {
+	struct smf_cursor cursor;
+	struct smf_event ev;       /* its next event in the merge */
+	size_t track;
+};
+
+/* The track's next event that is merged: not its end, writable. */
+static bool advance(struct head *h)
+{
+	char why[8];
+	while (smf_cursor_next(&h->cursor, &h->ev, NULL) == SMF_CURSOR_EVENT)
+		if (!is_end_of_track(&h->ev) && !unwritable(&h->ev, why, sizeof why))
+			return true;
+	return false;
+}
+
+/* By tick, then track: with each track in file order, the merged order. */
+static bool before(const struct head *a, const struct head *b)
+{
+	return a->ev.tick != b->ev.tick ? a->ev.tick < b->ev.tick : a->track < b->track;
+}
+
+/* A binary min-heap of heads. */
+struct merge {
+	struct head *heads;
+	struct head **heap;
+	size_t count;
+};
+
+static void sift_down(struct merge *m, size_t i)
+{
+	for (;;) {
+		size_t least = i, a = 2 * i + 1, b = a + 1;
+		if (a < m->count && before(m->heap[a], m->heap[least]))
+			least = a;
+		if (b < m->count && before(m->heap[b], m->heap[least]))
+			least = b;
+		if (least == i)
+			return;
+		struct head *x = m->heap[i];
+		m->heap[i] = m->heap[least];
+		m->heap[least] = x;
+		i = least;
+	}
+}
+
+static bool merge_open(struct merge *m, const struct render *r, size_t first, size_t last)
+{
+	size_t n = last - first;
+	m->heads = malloc((n ? n : 1) * sizeof *m->heads);
+	m->heap = malloc((n ? n : 1) * sizeof *m->heap);
+	m->count = 0;
+	if (!m->heads || !m->heap)
+		return false;
+	for (size_t i = 0; i < n; i++) {
+		struct head *h = &m->heads[i];
+		h->track = first + i;
+		smf_cursor_init(&h->cursor, r->bytes, r->in, h->track);
+		if (advance(h))
+			m->heap[m->count++] = h;
+	}
+	for (size_t i = m->count; i-- > 0;)
+		sift_down(m, i);
+	return true;
+}
+
+/* The earliest head was used: on to that track's next event. */
+static void merge_next(struct merge *m)
+{
+	if (!advance(m->heap[0]))
+		m->heap[0] = m->heap[--m->count];
+	sift_down(m, 0);
+}
+
+static void merge_close(struct merge *m)
+{
+	free(m->heads);
+	free(m->heap);
 }
 
 /* ---- one performance --------------------------------------------------------- */
@@ -208,22 +229,24 @@ static void feed(struct render *r, size_t track, const struct smf_event *ev)
 	r->track = track;
 	r->tick = ev->tick;
 	if (!engine_hears(ev)) {
-		struct out_event out = { .tick = ev->tick, .kind = OUT_INPUT, .u.input = ev };
-		push(r, track, &out);
+		render_out_event(&r->out, track, ev);
 		return;
 	}
-	const struct midi_msg *m = &ev->msg;
-	if (midi_msg_is_channel(m)) {
-		int ch = midi_msg_channel(m);
-		uint8_t type = midi_msg_type(m);
-		if (type == MIDI_NOTE_ON && m->data[1] > 0)
-			r->key_track[ch][m->data[0]] = (uint32_t)track;
-		else if (type == MIDI_CONTROL &&
-			 (m->data[0] == CC_SUSTAIN || m->data[0] == CC_SOSTENUTO))
+	struct midi_msg m = ev->msg;
+	if (ev->kind == SMF_EVENT_SYSEX) {
+		r->sysex[0] = MIDI_SYSEX;
+		memcpy(r->sysex + 1, ev->data, ev->length);
+		m = midi_msg_sysex(r->sysex, (uint16_t)(ev->length + 1));
+	} else {
+		int ch = midi_msg_channel(&m);
+		uint8_t type = midi_msg_type(&m);
+		if (type == MIDI_NOTE_ON && m.data[1] > 0)
+			r->key_track[ch][m.data[0]] = (uint32_t)track;
+		else if (type == MIDI_CONTROL && (m.data[0] == CC_SUSTAIN || m.data[0] == CC_SOSTENUTO))
 			r->pedal_track[ch] = (uint32_t)track;
 	}
 	/* source 0 for every track: a note-off ends its note whatever track it is in */
-	engine_handle(r->engine, 0, m);
+	engine_handle(r->engine, 0, &m);
 }
 
 /* From now on the engine's messages go to `track`, at the tick where what
@@ -231,20 +254,20 @@ static void feed(struct render *r, size_t track, const struct smf_event *ev)
  * past the track's last event if the end lies beyond that. */
 static void release_in(struct render *r, size_t track, uint32_t end)
 {
-	struct out_track *t = &r->tracks[track];
-	if (!t->release_set) {
-		uint32_t last = t->count ? t->events[t->count - 1].tick : 0;
-		t->release_tick = end;
+	struct release_point *p = &r->release[track];
+	if (!p->set) {
+		uint32_t last = r->out.tracks[track].last_tick;
+		p->tick = end;
 		if (end > last && end - last > SMF_DELTA_MAX) {
-			t->release_tick = last + SMF_DELTA_MAX;
+			p->tick = last + SMF_DELTA_MAX;
 			r->report->early_tracks++;
-			if (r->report->early_tick == 0 || t->release_tick < r->report->early_tick)
-				r->report->early_tick = t->release_tick;
+			if (r->report->early_tick == 0 || p->tick < r->report->early_tick)
+				r->report->early_tick = p->tick;
 		}
-		t->release_set = true;
+		p->set = true;
 	}
 	r->track = track;
-	r->tick = t->release_tick;
+	r->tick = p->tick;
 }
 
 /* A key's release goes to the track of its note-on, a pedal's to the
@@ -276,72 +299,8 @@ static void release_hanging(struct render *r, size_t setup_track, uint32_t tick)
 	}
 }
 
-/*
- * Plays tracks [first, last) as one performance.  The set-up is sent just
- * before the first event that is not a leading tick-0 meta event of the
- * set-up track (tracks before it hold no event the engine hears).
- */
-static bool perform(struct render *r, const struct engine_spec *spec,
-		    const struct engine_tunings *tunings, size_t first, size_t last,
-		    uint32_t end_tick, struct core_error *err)
+static void add_stats(struct render *r)
 {
-	const struct smf *in = r->in;
-	size_t total = 0;
-	for (size_t t = first; t < last; t++)
-		total += in->tracks[t].event_count;
-	struct merged *order = malloc((total ? total : 1) * sizeof *order);
-	if (!order)
-		return core_fail(err, "", "out of memory merging %zu events", total);
-
-	size_t count = 0, setup_track = SIZE_MAX;
-	for (size_t t = first; t < last; t++) {
-		const struct smf_track *tr = &in->tracks[t];
-		for (size_t i = 0; i < tr->event_count; i++) {
-			const struct smf_event *ev = &tr->events[i];
-			if (is_end_of_track(ev))
-				continue;
-			r->report->events_in++;
-			if (!writable(r, ev))
-				continue;
-			if (setup_track == SIZE_MAX && engine_hears(ev))
-				setup_track = t;
-			order[count++] = (struct merged){ ev->tick, (uint32_t)t, i };
-		}
-	}
-	if (setup_track == SIZE_MAX)
-		setup_track = first;
-	qsort(order, count, sizeof *order, merged_compare);
-
-	if (!engine_init(r->engine, spec, tunings, on_emit, r, err)) {
-		free(order);
-		return false;
-	}
-	for (int ch = 0; ch < 16; ch++) {
-		r->pedal_track[ch] = (uint32_t)setup_track;
-		for (int key = 0; key < 128; key++)
-			r->key_track[ch][key] = (uint32_t)setup_track;
-	}
-
-	bool set_up = false;
-	for (size_t i = 0; i < count && !r->out_of_memory; i++) {
-		const struct smf_event *ev = &in->tracks[order[i].track].events[order[i].index];
-		if (!set_up && (ev->tick > 0 || order[i].track > setup_track ||
-				(order[i].track == setup_track && ev->kind != SMF_EVENT_META))) {
-			r->track = setup_track;
-			r->tick = 0;
-			engine_start(r->engine);
-			set_up = true;
-		}
-		feed(r, order[i].track, ev);
-	}
-	free(order);
-	if (!set_up) {
-		r->track = setup_track;
-		r->tick = 0;
-		engine_start(r->engine);
-	}
-	release_hanging(r, setup_track, end_tick);
-
 	struct engine_stats *sum = &r->report->engine;
 	const struct engine_stats *s = engine_stats(r->engine);
 	sum->notes_on += s->notes_on;
@@ -360,93 +319,92 @@ static bool perform(struct render *r, const struct engine_spec *spec,
 		r->report->misses += miss.count;
 	}
 	r->report->performances++;
-	if (r->out_of_memory)
-		return core_fail(err, "", "out of memory building the output");
+}
+
+static void start_engine(struct render *r, size_t setup_track)
+{
+	r->track = setup_track;
+	r->tick = 0;
+	engine_start(r->engine);
+}
+
+/*
+ * Plays tracks [first, last) as one performance.  The set-up is sent just
+ * before the first event that is not a leading tick-0 meta event of the
+ * set-up track (tracks before it hold no event the engine hears).
+ */
+static bool perform(struct render *r, const struct engine_spec *spec,
+		    const struct engine_tunings *tunings, size_t first, size_t last,
+		    uint32_t end_tick, struct core_error *err)
+{
+	size_t setup_track = first;
+	for (size_t t = last; t-- > first;)
+		if (track_hears(r, t))
+			setup_track = t;
+	struct merge m;
+	if (!merge_open(&m, r, first, last)) {
+		merge_close(&m);
+		return core_fail(err, "", "out of memory merging %zu tracks", last - first);
+	}
+	if (!engine_init(r->engine, spec, tunings, on_emit, r, err)) {
+		merge_close(&m);
+		return false;
+	}
+	for (int ch = 0; ch < 16; ch++) {
+		r->pedal_track[ch] = (uint32_t)setup_track;
+		for (int key = 0; key < 128; key++)
+			r->key_track[ch][key] = (uint32_t)setup_track;
+	}
+	bool set_up = false;
+	for (; m.count > 0; merge_next(&m)) {
+		const struct head *h = m.heap[0];
+		if (!set_up && (h->ev.tick > 0 || h->track > setup_track ||
+				(h->track == setup_track && h->ev.kind != SMF_EVENT_META))) {
+			start_engine(r, setup_track);
+			set_up = true;
+		}
+		feed(r, h->track, &h->ev);
+	}
+	merge_close(&m);
+	if (!set_up)
+		start_engine(r, setup_track);
+	release_hanging(r, setup_track, end_tick);
+	add_stats(r);
 	return true;
 }
 
 /* ---- writing ---------------------------------------------------------------- */
 
-static bool write_event(struct smf_writer *w, const struct render *r, const struct out_event *ev)
+static bool render_tracks(struct render *r, const struct engine_spec *spec,
+			  const struct engine_tunings *tunings, struct core_error *err)
 {
-	switch (ev->kind) {
-	case OUT_INPUT:
-		return smf_writer_event(w, ev->u.input);
-	case OUT_SYSEX: {
-		struct midi_msg m = midi_msg_sysex(r->arena + ev->u.sysex.at,
-						   (uint16_t)ev->u.sysex.length);
-		return smf_writer_midi(w, ev->tick, &m);
-	}
-	default: {
-		struct midi_msg m = midi_msg_make(ev->status, ev->data[0], ev->data[1]);
-		return smf_writer_midi(w, ev->tick, &m);
-	}
-	}
-}
-
-static bool write_output(const struct render *r, uint8_t **out, size_t *out_length,
-			 struct core_error *err)
-{
-	const struct smf *in = r->in;
-	struct smf_writer w;
-	bool ok = smf_writer_begin(&w, r->report->format, in->division);
-	for (size_t t = 0; ok && t < in->track_count; t++) {
-		const struct out_track *tr = &r->tracks[t];
-		ok = smf_writer_track_begin(&w);
-		for (size_t i = 0; ok && i < tr->count; i++)
-			ok = write_event(&w, r, &tr->events[i]);
-		uint32_t end = tr->end_tick;
-		if (tr->count > 0 && tr->events[tr->count - 1].tick > end)
-			end = tr->events[tr->count - 1].tick;
-		ok = ok && smf_writer_track_end(&w, end);
-	}
-	ok = ok && smf_writer_finish(&w, out, out_length);
-	if (!ok) {
-		core_fail(err, "", "cannot build the output file: %s", w.error.text);
-		smf_writer_discard(&w);
-	}
-	return ok;
-}
-
-bool render_smf(const struct smf *in, const struct engine_spec *spec,
-		const struct engine_tunings *tunings, uint8_t **out, size_t *out_length,
-		struct render_report *report, struct core_error *err)
-{
-	memset(report, 0, sizeof *report);
-	*out = NULL;
-	*out_length = 0;
-	struct render r = { .in = in, .report = report };
-	report->format = in->format;
-	if (in->format == 0 && in->track_count == 0)
-		return core_fail(err, "", "byte 10: a format 0 file without a track, nothing to retune");
-	if (in->format == 0 && in->track_count > 1)
-		report->format = 1; /* the tracks are kept; only format 1 may hold them */
-	r.engine = malloc(sizeof *r.engine);
-	r.tracks = calloc(in->track_count ? in->track_count : 1, sizeof *r.tracks);
-	bool ok = r.engine && r.tracks;
-	if (!ok)
-		core_fail(err, "", "out of memory");
-
+	const struct smf_index *in = r->in;
 	uint32_t last_tick = 0;
-	for (size_t t = 0; ok && t < in->track_count; t++) {
-		r.tracks[t].end_tick = in->tracks[t].end_tick;
+	for (size_t t = 0; t < in->track_count; t++)
 		if (in->tracks[t].end_tick > last_tick)
 			last_tick = in->tracks[t].end_tick;
-	}
-	if (ok && in->format == 2) {
+	bool ok = true;
+	if (in->format == 2) {
 		for (size_t t = 0; ok && t < in->track_count; t++)
-			ok = perform(&r, spec, tunings, t, t + 1, in->tracks[t].end_tick, err);
-	} else if (ok && in->track_count > 0) {
-		ok = perform(&r, spec, tunings, 0, in->track_count, last_tick, err);
+			ok = perform(r, spec, tunings, t, t + 1, in->tracks[t].end_tick, err);
+	} else if (in->track_count > 0) {
+		ok = perform(r, spec, tunings, 0, in->track_count, last_tick, err);
 	}
-	ok = ok && write_output(&r, out, out_length, err);
+	if (!ok)
+		return false;
+	render_out_end(&r->out, in);
+	r->report->events_out = r->out.events;
+	if (r->out.in_memory)
+		snprintf(r->report->in_memory_why, sizeof r->report->in_memory_why, "%s", r->out.in_memory_why);
+	return render_out_check(&r->out, r->report->format, in->division, err);
+}
 
-	for (size_t t = 0; r.tracks && t < in->track_count; t++)
-		free(r.tracks[t].events);
-	free(r.tracks);
-	free(r.arena);
-	free(r.engine);
-	return ok;
+static void render_free(struct render *r)
+{
+	render_out_free(&r->out);
+	free(r->release);
+	free(r->sysex);
+	free(r->engine);
 }
 
 /* ---- the command ------------------------------------------------------------ */
@@ -461,7 +419,7 @@ static void print_notice(void *context, const char *line)
 	fprintf(stderr, "latticed render: %s: warning: %s\n", (const char *)context, line);
 }
 
-static void print_warnings(const char *in_name, const struct smf *in,
+static void print_warnings(const char *in_name, const struct smf_index *in,
 			   const struct render_report *rep, const struct engine_spec *spec)
 {
 	for (size_t i = 0; i < rep->left_out && i < RENDER_LEFT_OUT_SHOWN; i++)
@@ -497,10 +455,13 @@ static void print_warnings(const char *in_name, const struct smf *in,
 		fprintf(stderr, "latticed render: %s: warning: %s (%u such message%s in the file)\n", in_name,
 			line, rep->misses, rep->misses == 1 ? "" : "s");
 	}
+	if (rep->in_memory_why[0])
+		fprintf(stderr, "latticed render: %s: warning: %s; the rest of the output was kept in memory\n",
+			in_name, rep->in_memory_why);
 }
 
 static void print_summary(const char *in_name, const char *out_name,
-			  const struct render_request *req, const struct smf *in,
+			  const struct render_request *req, const struct smf_index *in,
 			  const struct render_report *rep)
 {
 	const struct output_config *o = &req->cfg->outputs[req->output];
@@ -511,6 +472,50 @@ static void print_summary(const char *in_name, const char *out_name,
 		o->name, retune_method_name(o->engine.method), rep->events_in, rep->events_out,
 		s->notes_on, s->notes_shared, s->notes_stolen, s->notes_dropped, s->silent_keys,
 		s->tuning_changes);
+}
+
+/* What can fail, and who is to blame: the input, the config, the output. */
+enum render_fault { FAULT_NONE, FAULT_INPUT, FAULT_OUTPUT };
+
+/* Reads, renders and writes the file; on failure *fault says whose. */
+static bool render_file(struct render *r, const uint8_t *bytes, size_t length,
+			const struct render_request *req, const char *in_name, struct core_error *err,
+			enum render_fault *fault)
+{
+	struct smf_index in;
+	struct smf_error serr;
+	*fault = FAULT_INPUT;
+	if (!smf_index_read(bytes, length, &in, survey, r, &serr)) {
+		core_fail(err, "", "%s", serr.text);
+		return false;
+	}
+	struct render_report *report = r->report;
+	struct engine_spec spec;
+	config_engine_spec(req->cfg, req->output, &spec);
+	r->in = &in;
+	report->format = in.format;
+	bool ok = true;
+	if (in.format == 0 && in.track_count == 0)
+		ok = core_fail(err, "", "byte 10: a format 0 file without a track, nothing to retune");
+	if (in.format == 0 && in.track_count > 1)
+		report->format = 1; /* the tracks are kept; only format 1 may hold them */
+	r->engine = malloc(sizeof *r->engine);
+	r->release = calloc(in.track_count ? in.track_count : 1, sizeof *r->release);
+	r->sysex = malloc(SYSEX_MESSAGE_MAX);
+	bool out = render_out_init(&r->out, in.track_count);
+	if (ok && !(r->engine && r->release && r->sysex && out))
+		ok = core_fail(err, "", "out of memory");
+	ok = ok && render_tracks(r, &spec, req->tunings, err);
+	if (ok) {
+		*fault = FAULT_OUTPUT;
+		print_warnings(in_name, &in, report, &spec);
+		ok = render_out_write(&r->out, req->out_path, report->format, in.division, err);
+		if (ok && req->verbose)
+			print_summary(in_name, display_name(req->out_path, "standard output"), req, &in, report);
+	}
+	render_free(r);
+	smf_index_free(&in);
+	return ok;
 }
 
 int render_run(const struct render_request *req)
@@ -535,43 +540,29 @@ int render_run(const struct render_request *req)
 		fprintf(stderr, "latticed render: %s: %s\n", in_name, err.text);
 		return 1;
 	}
-	struct smf in;
-	struct smf_error serr;
-	bool ok = smf_read(bytes, length, &in, &serr);
-	free(bytes);
-	if (!ok) {
-		fprintf(stderr, "latticed render: %s: %s\n", in_name, serr.text);
-		return 1;
-	}
-
-	struct engine_spec spec;
-	config_engine_spec(req->cfg, req->output, &spec);
-	struct render_report *rep = malloc(sizeof *rep);
-	uint8_t *out = NULL;
-	size_t out_length = 0;
+	struct render_report *rep = calloc(1, sizeof *rep);
+	struct render *r = calloc(1, sizeof *r);
 	int rc = 0;
-	if (!rep) {
+	enum render_fault fault = FAULT_NONE;
+	if (!rep || !r) {
 		fprintf(stderr, "latticed render: out of memory\n");
 		rc = 1;
-	} else if (!render_smf(&in, &spec, req->tunings, &out, &out_length, rep, &err)) {
-		const struct output_config *o = &req->cfg->outputs[req->output];
-		if (err.field[0])
-			fprintf(stderr, "latticed render: %s: output '%s': %s\n", req->cfg->path,
-				o->name, err.text);
-		else
-			fprintf(stderr, "latticed render: %s: %s\n", in_name, err.text);
-		rc = 1;
 	} else {
-		print_warnings(in_name, &in, rep, &spec);
-		if (!smf_file_write(req->out_path, out, out_length, &err)) {
-			fprintf(stderr, "latticed render: %s: %s\n", out_name, err.text);
+		*r = (struct render){ .bytes = bytes, .report = rep, .out = { .scratch = { .fd = -1 } } };
+		if (!render_file(r, bytes, length, req, in_name, &err, &fault)) {
+			const struct output_config *o = &req->cfg->outputs[req->output];
+			if (fault == FAULT_OUTPUT)
+				fprintf(stderr, "latticed render: %s: %s\n", out_name, err.text);
+			else if (err.field[0])
+				fprintf(stderr, "latticed render: %s: output '%s': %s\n", req->cfg->path,
+					o->name, err.text);
+			else
+				fprintf(stderr, "latticed render: %s: %s\n", in_name, err.text);
 			rc = 1;
-		} else if (req->verbose) {
-			print_summary(in_name, out_name, req, &in, rep);
 		}
 	}
-	free(out);
+	free(r);
 	free(rep);
-	smf_free(&in);
+	free(bytes);
 	return rc;
 }

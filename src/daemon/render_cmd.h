@@ -22,9 +22,15 @@
  * leaves a note sounding (earlier, where one delta time cannot reach the
  * last tick from their track's last event).  A tempo of 0 is copied as it
  * is, with a warning naming its byte: render changes pitch, never time, so
- * the output plays as the input does wherever it is played.  Input events a strict file cannot hold (a tempo
- * event of the wrong length, a SysEx with a status byte inside) are left
- * out and reported with their byte offset.
+ * the output plays as the input does wherever it is played.  Input events
+ * a strict file cannot hold (a tempo event of the wrong length, a SysEx
+ * with a status byte inside) are left out and reported with their byte
+ * offset.
+ *
+ * Memory stays bounded: the input once, the output a few megabytes at a
+ * time (the rest waits in an unnamed scratch file in $TMPDIR or /tmp),
+ * a little per track (render_cmd.c).  Where no scratch file can be made,
+ * the output is kept in memory, with a warning saying why.
  */
 #ifndef LATTICED_RENDER_CMD_H
 #define LATTICED_RENDER_CMD_H
@@ -36,7 +42,6 @@
 #include "config.h"
 #include "latticed/engine.h"
 #include "latticed/error.h"
-#include "latticed/smf.h"
 
 #define RENDER_LEFT_OUT_SHOWN 8
 #define RENDER_LINE_MAX 240
@@ -60,15 +65,8 @@ struct render_report {
 	uint32_t notices;            /* engine_notice flags, ORed */
 	struct engine_control_miss miss; /* the last control message that selected nothing */
 	uint32_t misses;             /* how many did */
+	char in_memory_why[CORE_ERROR_TEXT_MAX]; /* the scratch file could not be used: why */
 };
-
-/*
- * Retunes a parsed file into a new file in memory (*out, free() it).
- * False with err set when the engine refuses the spec or memory runs out.
- */
-bool render_smf(const struct smf *in, const struct engine_spec *spec,
-		const struct engine_tunings *tunings, uint8_t **out, size_t *out_length,
-		struct render_report *report, struct core_error *err);
 
 struct render_request {
 	const struct config *cfg;

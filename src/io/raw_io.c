@@ -260,6 +260,8 @@ static void service_one_input(struct midi_io *io, int source)
 							    MIDI_IO_SOURCE_CONNECTED, source, in->path);
 			}
 			io->callbacks.input(io->callbacks.context, (uint8_t)source, buf, (size_t)n);
+			if (io->callbacks.input_done)
+				io->callbacks.input_done(io->callbacks.context);
 			continue;
 		}
 		if (n < 0 && (errno == EAGAIN || errno == EWOULDBLOCK))

@@ -114,6 +114,52 @@ static bool write_all(int fd, const uint8_t *bytes, size_t length)
 	return true;
 }
 
+struct smf_sink {
+	int fd;
+	struct core_error *err;    /* the fill's own failures */
+};
+
+bool smf_sink_put(struct smf_sink *sink, const void *bytes, size_t length)
+{
+	return write_all(sink->fd, bytes, length);
+}
+
+struct core_error *smf_sink_error(struct smf_sink *sink)
+{
+	return sink->err;
+}
+
+/* What goes into the file, and where its own failures are told. */
+struct source {
+	smf_file_fill_fn fill;
+	void *context;
+	struct core_error *err;
+};
+
+/* Writes the source's bytes to fd; false with *why set ("cannot write" and
+ * errno in *saved, or the fill's own sentence already in err). */
+static bool fill_fd(int fd, const struct source *src, const char **why, int *saved)
+{
+	struct smf_sink sink = { .fd = fd, .err = src->err };
+	src->err->text[0] = '\0';
+	errno = 0;
+	if (src->fill(src->context, &sink))
+		return true;
+	*saved = errno;
+	*why = src->err->text[0] ? NULL : "cannot write";
+	return false;
+}
+
+/* The failure of a fill: its own sentence, or `why` with the errno. */
+static bool fill_failed(struct core_error *err, const char *why, int saved)
+{
+	if (!why)
+		return false; /* err holds the fill's own sentence */
+	if (saved)
+		return core_fail(err, "", "%s: %s", why, strerror(saved));
+	return core_fail(err, "", "%s", why);
+}
+
 static mode_t new_file_mode(void)
 {
 	mode_t mask = umask(0);
@@ -145,7 +191,7 @@ static void directory_of(const char *path, char *dir, size_t size)
 
 /* Writes a new regular file at path through a temporary file and rename;
  * `old` is what is there now (NULL: nothing). */
-static bool replace(const char *path, const struct stat *old, const uint8_t *bytes, size_t length,
+static bool replace(const char *path, const struct stat *old, const struct source *src,
 		    struct core_error *err)
 {
 	char dir[PATH_MAX], temp[PATH_MAX];
@@ -159,29 +205,30 @@ static bool replace(const char *path, const struct stat *old, const uint8_t *byt
 		return core_fail(err, "", "cannot create a file in %s: %s", dir, strerror(errno));
 	const char *failed = NULL;
 	int saved = 0;
+	bool filled = true;
 	/* the file stays its owner's when root renders over it (chown clears
 	 * set-id bits, so the mode is set after) */
 	if (old && (old->st_uid != geteuid() || old->st_gid != getegid()))
 		(void)!fchown(fd, old->st_uid, old->st_gid);
-	if (!write_all(fd, bytes, length))
-		failed = "cannot write";
+	if (!fill_fd(fd, src, &failed, &saved))
+		filled = false;
 	else if (fchmod(fd, old ? old->st_mode & 07777 : new_file_mode()) != 0)
 		failed = "cannot set the file mode";
 	else if (fsync(fd) != 0)
 		failed = "cannot write (fsync)";
-	if (failed)
+	if (filled && failed)
 		saved = errno;
-	if (close(fd) != 0 && !failed) {
+	if (close(fd) != 0 && filled && !failed) {
 		failed = "cannot write (close)";
 		saved = errno;
 	}
-	if (!failed && rename(temp, path) != 0) {
+	if (filled && !failed && rename(temp, path) != 0) {
 		failed = "cannot rename the finished file into place";
 		saved = errno;
 	}
-	if (failed) {
+	if (!filled || failed) {
 		unlink(temp);
-		return core_fail(err, "", "%s: %s", failed, strerror(saved));
+		return fill_failed(err, failed, saved);
 	}
 	sync_directory(dir);
 	return true;
@@ -191,7 +238,7 @@ static bool replace(const char *path, const struct stat *old, const uint8_t *byt
  * where it is.  `st` says what the caller found there; open_flags add
  * O_NOFOLLOW when path itself was that thing and not a link to it. */
 static bool write_in_place(const char *path, const struct stat *st, int open_flags,
-			   const uint8_t *bytes, size_t length, struct core_error *err)
+			   const struct source *src, struct core_error *err)
 {
 	if (S_ISDIR(st->st_mode))
 		return core_fail(err, "", "cannot write: it is a directory");
@@ -209,24 +256,24 @@ static bool write_in_place(const char *path, const struct stat *st, int open_fla
 	struct stat now;
 	const char *failed = NULL;
 	int saved = 0;
+	bool filled = true;
 	if (fstat(fd, &now) != 0 || (now.st_mode & S_IFMT) != (st->st_mode & S_IFMT)) {
 		failed = "cannot write: it changed while being opened";
 	} else if (isatty(fd)) {
 		failed = "refusing to write a MIDI file to a terminal";
-	} else if (fcntl(fd, F_SETFL, fcntl(fd, F_GETFL) & ~O_NONBLOCK) != 0 ||
-		   !write_all(fd, bytes, length)) {
+	} else if (fcntl(fd, F_SETFL, fcntl(fd, F_GETFL) & ~O_NONBLOCK) != 0) {
 		failed = "cannot write";
 		saved = errno;
+	} else {
+		filled = fill_fd(fd, src, &failed, &saved);
 	}
-	if (close(fd) != 0 && !failed) {
+	if (close(fd) != 0 && filled && !failed) {
 		failed = "cannot write (close)";
 		saved = errno;
 	}
-	if (!failed)
+	if (filled && !failed)
 		return true;
-	if (saved)
-		return core_fail(err, "", "%s: %s", failed, strerror(saved));
-	return core_fail(err, "", "%s", failed);
+	return fill_failed(err, failed, saved);
 }
 
 /* The kernel's protected_symlinks rule (proc(5), fs.protected_symlinks):
@@ -247,8 +294,8 @@ static bool link_may_be_followed(const char *path, const struct stat *link, stru
 	return true;
 }
 
-static bool write_through_link(const char *path, const struct stat *link, const uint8_t *bytes,
-			       size_t length, struct core_error *err)
+static bool write_through_link(const char *path, const struct stat *link, const struct source *src,
+			       struct core_error *err)
 {
 	if (!link_may_be_followed(path, link, err))
 		return false;
@@ -264,23 +311,24 @@ static bool write_through_link(const char *path, const struct stat *link, const 
 	if (rc != 0)
 		return core_fail(err, "", "cannot follow the symbolic link: %s", strerror(errno));
 	if (!S_ISREG(target.st_mode))
-		return write_in_place(path, &target, 0, bytes, length, err);
+		return write_in_place(path, &target, 0, src, err);
 	/* a regular file is replaced under the name the kernel reached, if it has one */
 	char resolved[PATH_MAX];
 	struct stat check;
 	if (realpath(path, resolved) && lstat(resolved, &check) == 0 && S_ISREG(check.st_mode) &&
 	    check.st_dev == target.st_dev && check.st_ino == target.st_ino)
-		return replace(resolved, &check, bytes, length, err);
-	return write_in_place(path, &target, 0, bytes, length, err);
+		return replace(resolved, &check, src, err);
+	return write_in_place(path, &target, 0, src, err);
 }
 
-bool smf_file_write(const char *path, const uint8_t *bytes, size_t length,
-		    struct core_error *err)
+bool smf_file_write_with(const char *path, smf_file_fill_fn fill, void *context,
+			 struct core_error *err)
 {
+	struct source src = { fill, context, err };
 	if (smf_file_is_stdio(path)) {
-		if (!write_all(STDOUT_FILENO, bytes, length))
-			return core_fail(err, "", "cannot write: %s", strerror(errno));
-		return true;
+		const char *why = NULL;
+		int saved = 0;
+		return fill_fd(STDOUT_FILENO, &src, &why, &saved) || fill_failed(err, why, saved);
 	}
 	if (path[0] == '\0')
 		return core_fail(err, "", "the file name is empty: name a file, or - for standard output");
@@ -288,11 +336,92 @@ bool smf_file_write(const char *path, const uint8_t *bytes, size_t length,
 	if (lstat(path, &st) != 0) {
 		if (errno != ENOENT)
 			return core_fail(err, "", "cannot write: %s", strerror(errno));
-		return replace(path, NULL, bytes, length, err);
+		return replace(path, NULL, &src, err);
 	}
 	if (S_ISREG(st.st_mode))
-		return replace(path, &st, bytes, length, err);
+		return replace(path, &st, &src, err);
 	if (S_ISLNK(st.st_mode))
-		return write_through_link(path, &st, bytes, length, err);
-	return write_in_place(path, &st, O_NOFOLLOW, bytes, length, err);
+		return write_through_link(path, &st, &src, err);
+	return write_in_place(path, &st, O_NOFOLLOW, &src, err);
+}
+
+struct bytes {
+	const uint8_t *bytes;
+	size_t length;
+};
+
+static bool put_bytes(void *context, struct smf_sink *sink)
+{
+	const struct bytes *b = context;
+	return smf_sink_put(sink, b->bytes, b->length);
+}
+
+bool smf_file_write(const char *path, const uint8_t *bytes, size_t length,
+		    struct core_error *err)
+{
+	struct bytes b = { bytes, length };
+	return smf_file_write_with(path, put_bytes, &b, err);
+}
+
+/* ---- scratch space ---------------------------------------------------------------- */
+
+static const char *scratch_directory(void)
+{
+	const char *dir = getenv("TMPDIR");
+	return dir && dir[0] == '/' ? dir : "/tmp";
+}
+
+bool smf_scratch_open(struct smf_scratch *s, struct core_error *err)
+{
+	const char *dir = scratch_directory();
+	s->length = 0;
+	/* unnamed: nothing to clean up, whatever happens to the process */
+	s->fd = open(dir, O_TMPFILE | O_RDWR | O_CLOEXEC, 0600);
+	if (s->fd >= 0)
+		return true;
+	char name[PATH_MAX];
+	int n = snprintf(name, sizeof name, "%s/latticed-render.XXXXXX", dir);
+	if (n > 0 && (size_t)n < sizeof name)
+		s->fd = mkostemp(name, O_CLOEXEC);
+	if (s->fd >= 0) {
+		unlink(name);
+		return true;
+	}
+	return core_fail(err, "", "cannot make a temporary file in %s for the output: %s (set TMPDIR to a directory with room)",
+			 dir, strerror(errno));
+}
+
+bool smf_scratch_append(struct smf_scratch *s, const uint8_t *bytes, size_t length, struct core_error *err)
+{
+	if (!write_all(s->fd, bytes, length))
+		return core_fail(err, "", "cannot write the temporary file in %s: %s", scratch_directory(),
+				 strerror(errno));
+	s->length += length;
+	return true;
+}
+
+bool smf_scratch_copy(struct smf_scratch *s, uint64_t at, uint64_t length, struct smf_sink *sink)
+{
+	uint8_t buf[READ_CHUNK];
+	while (length > 0) {
+		size_t part = length < sizeof buf ? (size_t)length : sizeof buf;
+		ssize_t n = pread(s->fd, buf, part, (off_t)at);
+		if (n < 0 && errno == EINTR)
+			continue;
+		if (n <= 0)
+			return core_fail(sink->err, "", "cannot read the temporary file back: %s",
+					 n < 0 ? strerror(errno) : "it is shorter than written");
+		if (!smf_sink_put(sink, buf, (size_t)n))
+			return false;
+		at += (uint64_t)n;
+		length -= (uint64_t)n;
+	}
+	return true;
+}
+
+void smf_scratch_close(struct smf_scratch *s)
+{
+	if (s->fd >= 0)
+		close(s->fd);
+	s->fd = -1;
 }

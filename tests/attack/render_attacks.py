@@ -10,6 +10,11 @@
           root's own link there is followed
   odd:    a hanging note whose track ends more than 2^28 ticks before the
           file's last event; tempo 0
+  large:  a file whose output is larger than what render keeps in memory
+          (4 MB; the rest waits in a scratch file): the same bytes onto a
+          regular file, standard output and a FIFO, every track's note-ons
+          in that track, every note ended; with TMPDIR unusable, the same
+          bytes all the same (kept in memory) and a warning naming it
 
 Sources: Standard MIDI File 1.0 (MThd/MTrk chunks, big-endian lengths,
 variable-length delta times of at most 0x0FFFFFFF, meta FF 2F 00 End of
@@ -18,7 +23,7 @@ MIDI 1.0 (9n note-on, 8n note-off, velocity 0 = note-off); mknod(2) and
 devices.txt of the Linux kernel (1,3 is the null device); proc(5) and
 fs.protected_symlinks for the sticky-directory rule.  What is refused and
 what is written in place is our rule (latticed(8), render).
-Usage: render_attacks.py LATTICED_BINARY [files|sticky|odd]
+Usage: render_attacks.py LATTICED_BINARY [files|sticky|odd|large]
 """
 import os
 import stat
@@ -30,7 +35,9 @@ import threading
 import time
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+sys.path.insert(1, os.path.dirname(os.path.dirname(os.path.abspath(__file__))))
 from daemon_harness import binary_from_argv, check, summary  # noqa: E402
+from render_bench import make_file  # noqa: E402
 
 CONFIG = "[lattice]\nseeds = 1 3 5 7\nchoose = 2\n\n[output synth]\nmethod = bend\nchannels = 2-9\n"
 VLQ_MAX = 0x0FFFFFFF
@@ -274,14 +281,53 @@ def odd(r):
     check((0, 0xFF, b"\x51\x03\x00\x00\x00") in out[0], "the tempo event is copied unchanged")
 
 
+def note_ons(tracks):
+    return [sum(1 for _, status, data in t if status & 0xF0 == 0x90 and data[1] > 0) for t in tracks]
+
+
+def large(r):
+    src = os.path.join(r.tmp, "large.mid")
+    data = make_file(3_200_000)    # four players and a conductor, in time order across tracks
+    with open(src, "wb") as f:
+        f.write(data)
+    dst = os.path.join(r.tmp, "large-out.mid")
+    rc, _, err = r.run(src, dst, timeout=120)
+    check(rc == 0, "a 3.2 MB file renders (%s)" % err.strip()[-200:])
+    out = open(dst, "rb").read() if rc == 0 else b""
+    check(len(out) > 4 << 20, "its output (%d bytes) is larger than the 4 MB kept in memory" % len(out))
+    rc, stdout, err = r.run(src, "-", timeout=120)
+    check(rc == 0 and stdout == out, "onto standard output: the same bytes (%d)" % len(stdout))
+    fifo = os.path.join(r.tmp, "large.fifo")
+    os.mkfifo(fifo)
+    got, done = [], threading.Event()
+    threading.Thread(target=fifo_reader, args=(fifo, got, done), daemon=True).start()
+    time.sleep(0.1)
+    rc, _, err = r.run(src, fifo, timeout=120)
+    done.wait(25)
+    check(rc == 0 and got and got[0] == out, "onto a FIFO: the same bytes (%d)" % len(got[0] if got else b""))
+    if out:
+        tracks_in, tracks_out = parse(data), parse(out)
+        check(note_ons(tracks_out) == note_ons(tracks_in),
+              "each track's note-ons stay in their track (%s)" % note_ons(tracks_out))
+        check(not unpaired_notes(tracks_out), "every note ends")
+    # no room for the scratch file: kept in memory, and the user is told
+    target = os.path.join(r.tmp, "kept.mid")
+    env = dict(os.environ, TMPDIR=os.path.join(r.tmp, "missing"))
+    rc, _, err = r.run(src, target, timeout=120, env=env)
+    told = [line for line in err.splitlines() if "TMPDIR" in line]
+    check(rc == 0 and len(told) == 1 and "missing" in told[0] and "kept in memory" in told[0],
+          "TMPDIR unusable: exit 0 with a warning naming it (%s)" % told)
+    check(rc == 0 and open(target, "rb").read() == out, "and the same bytes")
+
+
 def main():
     binary = binary_from_argv()
-    parts = sys.argv[2:] or ["files", "odd"]
+    parts = sys.argv[2:] or ["files", "odd", "large"]
     tmp = tempfile.mkdtemp(prefix="latticed-render-attack-")
     r = Render(binary, tmp)
     for part in parts:
         print("== %s" % part, flush=True)
-        {"files": files, "sticky": sticky, "odd": odd}[part](r)
+        {"files": files, "sticky": sticky, "odd": odd, "large": large}[part](r)
     return summary()
 
 

@@ -8,6 +8,8 @@
  *   seqtool record [OPTIONS] SRC|- FILE
  *   seqtool compare [--time-tolerance MS] EXPECTED ACTUAL
  *   seqtool latency [OPTIONS] TO FROM | --direct
+ *   seqtool forward [OPTIONS]                  (seqtool_bench.c)
+ *   seqtool stream [OPTIONS] ROUTE...          (seqtool_bench.c)
  *
  * A port is named "client:port" with the names `list` prints (e.g.
  * "Midi Through:Midi Through Port-0", "latticed:in"), by a client name
@@ -55,8 +57,8 @@
 #include <time.h>
 #include <unistd.h>
 
-#define EXIT_FAIL 1
-#define EXIT_USAGE 2
+#include "seqtool.h"
+
 /* Chunk size of the kernel's rawmidi-to-sequencer bridge (sound/core/seq/seq_midi.c), from memory. */
 #define DEFAULT_SYSEX_CHUNK 256
 #define LINE_BYTES_MAX (1 << 20)
@@ -64,7 +66,7 @@
 /* How long `await FILE` waits before the player gives up. */
 #define AWAIT_SECONDS 120
 
-static volatile sig_atomic_t stop_requested;
+volatile sig_atomic_t stop_requested;
 
 static void on_signal(int sig)
 {
@@ -72,7 +74,7 @@ static void on_signal(int sig)
 	stop_requested = 1;
 }
 
-static void catch_signals(void)
+void catch_signals(void)
 {
 	struct sigaction sa;
 
@@ -83,7 +85,7 @@ static void catch_signals(void)
 	sigaction(SIGTERM, &sa, NULL);
 }
 
-static void die(int status, const char *fmt, ...)
+void die(int status, const char *fmt, ...)
 {
 	va_list ap;
 
@@ -96,7 +98,7 @@ static void die(int status, const char *fmt, ...)
 	exit(status);
 }
 
-static void check(int err, const char *what)
+void check(int err, const char *what)
 {
 	if (err < 0)
 		die(EXIT_FAIL, "%s: %s", what, snd_strerror(err));
@@ -116,7 +118,7 @@ static void *grow(void *p, size_t *cap, size_t need, size_t size)
 	return p;
 }
 
-static double now_ms(void)
+double now_ms(void)
 {
 	struct timespec t;
 
@@ -124,7 +126,7 @@ static double now_ms(void)
 	return t.tv_sec * 1e3 + t.tv_nsec / 1e6;
 }
 
-static void sleep_until_ms(double ms)
+void sleep_until_ms(double ms)
 {
 	struct timespec t;
 
@@ -138,12 +140,12 @@ static void sleep_until_ms(double ms)
 		;
 }
 
-static void pause_ms(double ms)
+void pause_ms(double ms)
 {
 	sleep_until_ms(now_ms() + ms);
 }
 
-static double real_ms(const snd_seq_real_time_t *t)
+double real_ms(const snd_seq_real_time_t *t)
 {
 	return t->tv_sec * 1e3 + t->tv_nsec / 1e6;
 }
@@ -170,7 +172,7 @@ static bool parse_double(const char *s, double *out)
 	return *s && !*end && !errno && isfinite(*out) && *out >= 0;
 }
 
-static double opt_double(const char *opt, const char *s)
+double opt_double(const char *opt, const char *s)
 {
 	double v;
 
@@ -179,7 +181,7 @@ static double opt_double(const char *opt, const char *s)
 	return v;
 }
 
-static long opt_long(const char *opt, const char *s, long min, long max)
+long opt_long(const char *opt, const char *s, long min, long max)
 {
 	char *end;
 	long v;
@@ -472,7 +474,7 @@ static void print_bytes(FILE *f, const unsigned char *b, size_t n, size_t limit)
  * Sequencer helpers.
  */
 
-static snd_seq_t *client_open(const char *name)
+snd_seq_t *client_open(const char *name)
 {
 	snd_seq_t *seq;
 
@@ -482,7 +484,7 @@ static snd_seq_t *client_open(const char *name)
 }
 
 /* A port; when tsqueue >= 0 every event it receives is stamped with that queue's real time. */
-static int port_create(snd_seq_t *seq, const char *name, unsigned caps, int tsqueue)
+int port_create(snd_seq_t *seq, const char *name, unsigned caps, int tsqueue)
 {
 	snd_seq_port_info_t *pi;
 	int port;
@@ -502,7 +504,7 @@ static int port_create(snd_seq_t *seq, const char *name, unsigned caps, int tsqu
 	return port;
 }
 
-static int queue_start(snd_seq_t *seq)
+int queue_start(snd_seq_t *seq)
 {
 	int q = snd_seq_alloc_named_queue(seq, "seqtool");
 
@@ -512,7 +514,7 @@ static int queue_start(snd_seq_t *seq)
 	return q;
 }
 
-static double queue_now_ms(snd_seq_t *seq, int q)
+double queue_now_ms(snd_seq_t *seq, int q)
 {
 	snd_seq_queue_status_t *st;
 	double ms;
@@ -606,7 +608,7 @@ static bool port_print(void *ctx, snd_seq_client_info_t *ci, const snd_seq_port_
 }
 
 /* Waits up to `seconds` for the port to exist; dies naming the ports there are. */
-static snd_seq_addr_t port_await(snd_seq_t *seq, const char *spec, double seconds)
+snd_seq_addr_t port_await(snd_seq_t *seq, const char *spec, double seconds)
 {
 	double deadline = now_ms() + seconds * 1e3;
 	snd_seq_addr_t a;
@@ -1236,14 +1238,14 @@ static void *filler_run(void *arg)
 	return NULL;
 }
 
-static int cmp_double(const void *a, const void *b)
+int cmp_double(const void *a, const void *b)
 {
 	double x = *(const double *)a, y = *(const double *)b;
 	return (x > y) - (x < y);
 }
 
 /* Nearest-rank percentile of a sorted array. */
-static double percentile(const double *v, size_t n, double pct)
+double percentile(const double *v, size_t n, double pct)
 {
 	/* the epsilon keeps 99.9 % of 1000 at rank 999, not 1000 */
 	size_t rank = (size_t)ceil(pct / 100.0 * (double)n - 1e-9);
@@ -1510,6 +1512,7 @@ int main(int argc, char **argv)
 	} commands[] = {
 		{ "list", cmd_list },       { "wait", cmd_wait },       { "play", cmd_play },
 		{ "record", cmd_record },   { "compare", cmd_compare }, { "latency", cmd_latency },
+		{ "forward", cmd_forward }, { "stream", cmd_stream },
 	};
 
 	setvbuf(stdout, NULL, _IOLBF, 0);
@@ -1517,6 +1520,7 @@ int main(int argc, char **argv)
 		for (size_t i = 0; i < sizeof(commands) / sizeof(commands[0]); i++)
 			if (!strcmp(argv[1], commands[i].name))
 				return commands[i].run(argc - 1, argv + 1);
-	fprintf(stderr, "usage: seqtool list | wait | play | record | compare | latency  (see the top of seqtool.c)\n");
+	fprintf(stderr, "usage: seqtool list | wait | play | record | compare | latency | forward | stream\n"
+			"(see the top of seqtool.c and seqtool_bench.c)\n");
 	return EXIT_USAGE;
 }

@@ -12,25 +12,36 @@
  *     or none and a tick in milliseconds for a backend that must be polled
  *     (PortMidi has no descriptor).  service_input() may be called at any
  *     time, with nothing pending too.
- *     service_input() reads everything pending and reports it through the
- *     callbacks: raw MIDI bytes per source, in arrival order (SysEx may
- *     come in several pieces; the daemon's parser per source joins them),
- *     connection events, and INPUT_LOST where a queue overflowed (the
- *     events lost cannot be named, only that there were some).  Hotplug (a matching port appearing) is
- *     handled inside service_input().  Callbacks are only ever called from
- *     service_input(): connections made by open() are reported by the
- *     first call.
+ *     service_input() reads what is pending (all of it, or as much as
+ *     leaves the rest where poll() still sees it: the daemon calls again
+ *     then) and reports it through the callbacks: raw MIDI bytes per
+ *     source, in arrival order (SysEx may come in several pieces; the
+ *     daemon's parser per source joins them), connection events, and
+ *     INPUT_LOST where a queue overflowed (the events lost cannot be
+ *     named, only that there were some).  Hotplug (a matching port
+ *     appearing) is handled inside service_input().  Callbacks are only
+ *     ever called from service_input(): connections made by open() are
+ *     reported by the first call.
  *     Backpressure: before each read of input, service_input() asks
  *     accepting() (when set); false means the daemon cannot take more now,
  *     and the backend reads nothing more in this call, leaving the input
  *     where the system keeps it (FIFO, device, sequencer queue) until a
  *     later call.  What one read has delivered is always taken.
- *   - The output side runs on the output thread only: send() queues one
- *     complete message (status byte first: running status is not taken)
- *     for one output without blocking and returns false
- *     if it cannot (the caller tries it again later); flush() pushes queued
- *     messages out after a batch and returns false while some are still
- *     held back (the receiver is not reading): call it again later.
+ *     Batches: the daemon may hold back what it makes of input() (to send
+ *     it in one write) until the backend calls input_done(), which it does
+ *     when it has delivered all that one read brought and before it reads
+ *     again, or until service_input() returns.
+ *   - The output side: send() queues one complete message (status byte
+ *     first: running status is not taken) for one output without blocking
+ *     and returns false if it cannot (the caller tries it again later);
+ *     flush() pushes queued messages out after a batch and returns false
+ *     while some are still held back (the receiver is not reading): call
+ *     it again later.  send() and flush() are never called at the same
+ *     time, but by either MIDI thread: the daemon hands the output side
+ *     from one to the other (with acquire/release ordering, so each call
+ *     sees what the last one did), and when the input thread holds it the
+ *     input side is not running; so the output side keeps no thread of
+ *     its own, and may run beside the input side as before.
  *   - describe() (input thread) and list() (any thread, no open needed)
  *     report ports and connections as text lines for `latticed status`
  *     and `latticed ports`; connect() (optional, no open needed) links two
@@ -70,6 +81,9 @@ struct midi_io_callbacks {
 	void (*event)(void *context, enum midi_io_event kind, int index, const char *name);
 	/* optional: false stops reading input for now (backpressure, above) */
 	bool (*accepting)(void *context);
+	/* optional: everything one read brought has gone through input();
+	 * what the daemon made of it goes out now, before the next read */
+	void (*input_done)(void *context);
 };
 
 struct midi_io_port_spec {

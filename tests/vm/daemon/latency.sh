@@ -1,58 +1,107 @@
 #!/bin/sh
-# vm_latency: a benchmark, not a test of speed.  seqtool latency's probes
-# (note-on, then note-off) go once through latticed (latticed:in ->
-# latticed:synth) and once by a direct subscription; the kernel stamps
-# both ends with one queue.  At idle and with 10 000 events/s of filler
-# into the route (CC 1 on channel 1: latticed reads and handles every one,
-# and passes it on only to a channel where the probe sounds).  The table
-# goes to /out/latency-table.txt, which the stage prints.
+# vm_latency: a benchmark, not a test of speed.  `seqtool stream` plays
+# note events (on and off, four held at once, up three octaves of an
+# eikosany so every key sounds) at 1 000 and 10 000 per second, scheduled
+# by the kernel, and times each through a route with the kernel's stamps:
+#   direct     a plain subscription (the kernel alone)
+#   forwarder  `seqtool forward`, one thread that reads an event and writes
+#              it (the reference: what any user-space program must cost)
+#   bend, mts, mpe  latticed run with latency.conf and each method
+# The routes take turns of 100 events in one stream, so whatever else the
+# host runs weighs on all of them alike.  The table (median and p99.9 of
+# each, their ratio to the forwarder's, events lost, CPU use while
+# streaming and at idle) goes to /out/latency-table.txt, which the stage
+# prints.
 . ./vmlib.sh
 OUT=${LATTICED_VM_OUT:-/tmp}
-COUNT=${LATENCY_PROBES:-2000}
+COUNT=${LATENCY_EVENTS:-10000}
+RATES=${LATENCY_RATES:-"1000 10000"}
+METHODS="bend mts mpe"
+IDLE_S=5
 
-vm_step "latency: latticed between the probe ports"
-vm_start daemon latticed run --config latency.conf
-vm_check "latticed's ports appear" sh -c 'seqtool wait latticed:synth --seconds 20 >/dev/null'
-# Figures, not checks: a run that could not finish (a host too busy) shows
-# up in the table as a missing row, not as a failure.
-timeout 120 seqtool latency --count "$COUNT" --direct | tee "$OUT/latency-direct.txt"
-timeout 120 seqtool latency --count "$COUNT" latticed:in latticed:synth | tee "$OUT/latency-latticed.txt"
-vm_check "latticed status answers" sh -c 'latticed status --config latency.conf >/tmp/status.txt'
-cat /tmp/status.txt
-vm_check "latticed stops cleanly" vm_stop daemon
+# nanoseconds on a CPU of all threads of a process (the scheduler's clock)
+cpu_ns() { cat /proc/"$1"/task/*/schedstat | awk '{ ns += $1 } END { printf "%.0f\n", ns }'; }
 
-# The columns of seqtool latency: phase probes lost filler/s path-median path-p99.9 ...
-awk -v probes="$COUNT" '
-	FNR == 1 { route = FILENAME ~ /latticed/ ? "latticed" : "direct" }
-	$1 == "idle" || $1 == "loaded" {
-		got[route, $1] = $2; lost[route, $1] = $3; rate[route, $1] = $4
-		med[route, $1] = $5; p999[route, $1] = $6
-	}
-	/^# (idle|loaded): / { notes = notes "# " route ", " substr($0, 3) "\n" }
-	END {
-		print "# latency in the test VM under qemu TCG emulation (code runs 10-50x slower than on"
-		print "# real hardware): kernel timestamps, probe sent -> probe received, in ms; " probes " probes"
-		print "# per phase, 2 ms apart; loaded: 10 000 CC/s of filler into the same route (filler/s: reached)"
-		printf "%-7s %9s %9s %9s %6s %9s %9s %6s %5s %5s\n", "phase", "filler/s", "direct", "latticed",
-			"ratio", "direct", "latticed", "ratio", "lost", "lost"
-		printf "%-7s %9s %9s %9s %6s %9s %9s %6s %5s %5s\n", "", "latticed", "median", "median", "",
-			"p99.9", "p99.9", "", "dir.", "latt."
-		split("idle loaded", phases, " ")
-		for (i = 1; i <= 2; i++) {
-			ph = phases[i]
-			if (got["latticed", ph] == "" || got["direct", ph] == "")
-				continue
-			d = med["direct", ph]; l = med["latticed", ph]
-			dp = p999["direct", ph]; lp = p999["latticed", ph]
-			printf "%-7s %9d %9.4f %9.4f %6.0f %9.4f %9.4f %6.1f %5d %5d\n", ph, rate["latticed", ph], d, l,
-				(d > 0 ? l / d : 0), dp, lp, (dp > 0 ? lp / dp : 0), lost["direct", ph], lost["latticed", ph]
-		}
-		printf "%s", notes
-	}' "$OUT/latency-direct.txt" "$OUT/latency-latticed.txt" >"$OUT/latency-table.txt"
-for phase in idle loaded; do
-	grep -q "^$phase " "$OUT/latency-table.txt" ||
-		echo "# $phase: not measured (seqtool latency did not finish in time)" >>"$OUT/latency-table.txt"
+vm_step "latency: the forwarder and one latticed per method"
+vm_start fwd seqtool forward
+routes="--direct direct --route forwarder forwarder:in forwarder:out"
+watch="forwarder:$vm_pid_fwd"
+for method in $METHODS; do
+	conf=/tmp/latency-$method.conf
+	# mts: each key on its own key, so held neighbours never share one
+	sed -e "s/^method = bend$/method = $method/" -e "s/^client_name = .*/client_name = latticed-$method/" \
+		-e "s|^control_socket = .*|control_socket = /tmp/latticed-$method/control|" latency.conf >"$conf"
+	[ "$method" = mts ] && printf 'mts_key = own\n' >>"$conf"
+	vm_start "daemon_$method" latticed run --config "$conf"
+	routes="$routes --route $method latticed-$method:in latticed-$method:synth"
 done
-grep -E '^output synth|^  notes:|input overruns' /tmp/status.txt | sed 's/^ */# latticed: /' >>"$OUT/latency-table.txt"
+vm_check "the forwarder's ports appear" sh -c 'seqtool wait forwarder:out --seconds 20 >/dev/null'
+for method in $METHODS; do
+	vm_check "latticed's ports appear ($method)" \
+		sh -c "seqtool wait latticed-$method:synth --seconds 20 >/dev/null"
+	eval "watch=\"\$watch $method:\$vm_pid_daemon_$method\""
+done
+
+# CPU use with no MIDI at all, once start-up is over
+sleep 2
+for w in $watch; do eval "idle0_${w%%:*}=$(cpu_ns "${w#*:}")"; done
+sleep $IDLE_S
+for w in $watch; do
+	eval "t0=\$idle0_${w%%:*}"
+	awk -v a="$t0" -v b="$(cpu_ns "${w#*:}")" -v s=$IDLE_S -v m="${w%%:*}" \
+		'BEGIN { printf "idle %s %.2f\n", m, (b - a) / s / 1e7 }'
+done >"$OUT/idle.txt"
+cat "$OUT/idle.txt"
+
+cpus=""
+for w in $watch; do cpus="$cpus --cpu ${w%%:*} ${w#*:}"; done
+for rate in $RATES; do
+	vm_step "latency: $COUNT note events per route at $rate/s"
+	# shellcheck disable=SC2086
+	timeout 300 seqtool stream --rate "$rate" --count "$COUNT" $routes $cpus >"$OUT/stream-$rate.txt" 2>&1
+	cat "$OUT/stream-$rate.txt"
+done
+
+for method in $METHODS; do
+	conf=/tmp/latency-$method.conf
+	vm_check "latticed status answers ($method)" sh -c "latticed status --config $conf >/tmp/status-$method.txt"
+	grep -E '^output synth|^  notes:|input overruns|left out' "/tmp/status-$method.txt" |
+		sed "s/^ */# latticed $method: /" >"$OUT/status-$method.txt"
+	vm_check "latticed stops cleanly ($method)" vm_stop "daemon_$method"
+done
+vm_check "the forwarder stops" vm_stop fwd
+
+# The table: one line per route and rate; ratios to the forwarder at that rate.
+{
+	echo "# latency in the test VM under qemu TCG (code runs 10-50x slower than on real hardware):"
+	echo "# $COUNT note events per route and rate, the routes taking turns of 100, scheduled by"
+	echo "# the kernel and stamped by it at both ends, in ms; ratio: to the one-thread forwarder"
+	echo "# at the same rate; lost: never came back; other: messages besides the notes (bends,"
+	echo "# tuning changes); cpu: % of one core while streaming; idle: with no MIDI for ${IDLE_S} s"
+	printf '%-10s %6s %5s %9s %6s %9s %6s %9s %6s %6s %5s\n' route rate lost median ratio p99.9 ratio max \
+		other cpu% idle
+	for rate in $RATES; do
+		awk -v rate="$rate" '
+			FILENAME ~ /idle/ { idle[$2] = $3; next }
+			$1 == "stream" && $3 == rate { n++; name[n] = $2; lost[$2] = $6; other[$2] = $8
+				med[$2] = $9; p[$2] = $10; max[$2] = $11 }
+			$1 == "cpu" { cpu[$2] = $4 }
+			END {
+				rm = med["forwarder"]; rp = p["forwarder"]
+				for (i = 1; i <= n; i++) {
+					r = name[i]
+					c = r in cpu ? cpu[r] : "-"
+					id = r in idle ? idle[r] : "-"
+					ratio_m = rm > 0 ? med[r] / rm : 0
+					ratio_p = rp > 0 ? p[r] / rp : 0
+					printf "%-10s %6d %5d %9.4f %6.2f %9.4f %6.2f %9.4f %6d %6s %5s\n", r, rate, lost[r],
+						med[r], ratio_m, p[r], ratio_p, max[r], other[r], c, id
+				}
+				if (n == 0)
+					printf "%-10s %6d not measured (seqtool stream did not finish)\n", "all", rate
+			}' "$OUT/idle.txt" "$OUT/stream-$rate.txt"
+	done
+	cat "$OUT"/status-*.txt 2>/dev/null
+} >"$OUT/latency-table.txt"
 cat "$OUT/latency-table.txt"
 vm_finish
