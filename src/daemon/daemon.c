@@ -288,6 +288,7 @@ static void main_loop(struct daemon *d)
 		signal_panic(d);
 		daemon_drain_logs(d);
 		daemon_handle_replies(d);
+		subscription_service(d);
 		/* every turn, polled or not: it also writes the replies just queued and closes idle clients */
 		control_server_service(&d->control, fds + 1, n - 1, daemon_on_request, d, monotonic_ms());
 		if (reload_requested) {
@@ -305,8 +306,14 @@ static bool set_up_plumbing(struct daemon *d, char *err, size_t err_size)
 	d->messages = malloc(sizeof *d->messages);
 	d->in = calloc(1, sizeof *d->in);
 	d->out = calloc(1, sizeof *d->out);
+	d->subs = malloc(sizeof *d->subs);
 	d->main_wake_fd = make_eventfd();
-	if (!d->messages || !d->in || !d->out || d->main_wake_fd < 0) {
+	if (d->subs && !subscription_init(d->subs, d->cfg)) {
+		subscription_free(d->subs);
+		free(d->subs);
+		d->subs = NULL;
+	}
+	if (!d->messages || !d->in || !d->out || !d->subs || d->main_wake_fd < 0) {
 		snprintf(err, err_size, "cannot set up: %s", strerror(errno ? errno : ENOMEM));
 		return false;
 	}
@@ -326,6 +333,7 @@ static bool set_up_plumbing(struct daemon *d, char *err, size_t err_size)
 	if (d->watchdog_usec && d->watchdog_usec / 8000 < (uint64_t)d->in->heartbeat_ms)
 		d->in->heartbeat_ms = (int)(d->watchdog_usec / 8000) > 0 ? (int)(d->watchdog_usec / 8000) : 1;
 	d->in->messages = d->messages;
+	d->in->events = &d->subs->ring;
 	d->in->output = d->out;
 	d->in->output_wake_fd = d->out->wake_fd;
 	d->in->main_wake_fd = d->main_wake_fd;
@@ -393,6 +401,7 @@ static void stop_after_signal(struct daemon *d)
 	notify_stopping();
 	log_print(LOG_LEVEL_NOTICE, "%s: ending every note and stopping",
 		  quit_requested == SIGINT ? "SIGINT" : "SIGTERM");
+	subscription_shutdown(d);
 	stop_threads(d);
 	log_print(LOG_LEVEL_NOTICE, "stopped");
 }
@@ -412,6 +421,9 @@ static void free_plumbing(struct daemon *d)
 		d->tunings = d->in->tunings;
 	free(d->in);
 	free(d->out);
+	if (d->subs)
+		subscription_free(d->subs);
+	free(d->subs);
 }
 
 int daemon_run(const struct daemon_options *options)

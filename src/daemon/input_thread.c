@@ -22,6 +22,7 @@
 
 #include "input_feed.h"
 #include "clock.h"
+#include "event_ring.h"
 #include "latticed/midi_encoder.h"
 #include "latticed/passthrough.h"
 #include "notice_text.h"
@@ -152,6 +153,7 @@ bool input_thread_init(struct input_thread *t, const struct config *cfg,
 				 o->name, cerr.text);
 			return false;
 		}
+		engine_watch_notes(&o->engine, event_ring_watch, o);
 	}
 	for (int s = 0; s < MIDI_IO_MAX_SOURCES; s++)
 		midi_parser_init(&t->sources[s].parser, t->sources[s].sysex,
@@ -229,7 +231,7 @@ static void reply_done(struct input_thread *t, const struct request *r, bool ok,
 	post_reply(t, &rep);
 }
 
-static void root_label(const struct engine *e, char *buf, size_t size)
+void input_root_label(const struct engine *e, char *buf, size_t size)
 {
 	int root = engine_root(e);
 	if (root == 0) {
@@ -255,9 +257,10 @@ static void check_tuning_state(struct input_thread *t)
 	rep.kind = REPLY_TUNING_STATE;
 	rep.ok = true;
 	char label[SNAPSHOT_LABEL_MAX];
-	root_label(e, label, sizeof label);
+	input_root_label(e, label, sizeof label);
 	snprintf(rep.text, sizeof rep.text, "preset %s, root %s", engine_current_preset(e)->name, label);
 	post_reply(t, &rep);
+	event_ring_tuning_changed(t);
 }
 
 static int find_preset(const struct engine_tunings *tunings, const struct request *r)
@@ -334,6 +337,7 @@ static void swap_tunings(struct input_thread *t, const struct request *r)
 	}
 	t->tunings = r->tunings;
 	t->reloads++;
+	event_ring_reloaded(t);
 	reply_done(t, r, true, "%d preset(s), now on preset %s", t->tunings->engine.count,
 		   engine_current_preset(&t->outputs[0].engine)->name);
 }
@@ -397,7 +401,7 @@ static void fill_snapshot(struct input_thread *t, struct status_snapshot *s)
 		so->preset = engine_preset(e);
 		snprintf(so->preset_name, sizeof so->preset_name, "%s", engine_current_preset(e)->name);
 		so->root_slot = engine_root(e);
-		root_label(e, so->root_label, sizeof so->root_label);
+		input_root_label(e, so->root_label, sizeof so->root_label);
 		so->stats = *engine_stats(e);
 		so->queued = o->queued;
 		so->queue_drops = o->queue_drops;
@@ -505,7 +509,7 @@ static bool handle_request(struct input_thread *t, const struct request *r)
 		for (int k = 0; k < t->output_count; k++)
 			(void)engine_select_root(&t->outputs[k].engine, r->number);
 		char label[SNAPSHOT_LABEL_MAX];
-		root_label(first, label, sizeof label);
+		input_root_label(first, label, sizeof label);
 		reply_done(t, r, true, "root %s (for new notes)", label);
 		break;
 	}
@@ -603,6 +607,7 @@ void *input_thread_run(void *arg)
 
 		report_notices(t);
 		check_tuning_state(t);
+		event_ring_service(t);
 		int64_t now = monotonic_ms();
 		if (t->retired_count && now - t->retired_checked_ms >= RETIRED_CHECK_MS) {
 			t->retired_checked_ms = now;
