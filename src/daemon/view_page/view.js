@@ -1,0 +1,206 @@
+// latticed view: the page's script.  It follows /events (Server-Sent
+// Events, one JSON page state per message, see view_model.h), shows the
+// drawing of /lattice.svg inline with the sounding tones and the held
+// chord lit, and says plainly when latticed or this view is gone.  With
+// control on, its buttons POST to /control with the token from the
+// address (#token=...) or typed in; nothing else leaves the page.
+"use strict";
+
+(function () {
+  const $ = (id) => document.getElementById(id);
+  let drawn = -1;          // version of the drawing shown
+  let drawing = null;      // the <svg> element
+  let fetching = 0;        // version being fetched
+  let last = null;         // the last page state
+  let token = sessionStorage.getItem("latticed-token") || "";
+
+  if (location.hash.startsWith("#token=")) {
+    token = decodeURIComponent(location.hash.slice(7));
+    sessionStorage.setItem("latticed-token", token);
+    history.replaceState(null, "", location.pathname);
+  }
+
+  function setLink(kind, text) {
+    const link = $("link");
+    link.className = "link " + kind;
+    $("link-text").textContent = text;
+  }
+
+  // Fit the view box to the lattice itself: the drawing's own title and
+  // legend are for print and hidden here.
+  function fitDrawing(svg) {
+    let box = null;
+    for (const sel of ["g.chords", "g.edges", "g.tones"]) {
+      const g = svg.querySelector(sel);
+      if (!g) continue;
+      const b = g.getBBox();
+      if (b.width === 0 && b.height === 0) continue;
+      box = box ? {
+        x: Math.min(box.x, b.x), y: Math.min(box.y, b.y),
+        r: Math.max(box.r, b.x + b.width), b: Math.max(box.b, b.y + b.height)
+      } : { x: b.x, y: b.y, r: b.x + b.width, b: b.y + b.height };
+    }
+    if (!box) return;
+    const pad = 12;
+    svg.setAttribute("viewBox", [box.x - pad, box.y - pad, box.r - box.x + 2 * pad,
+      box.b - box.y + 2 * pad].join(" "));
+    svg.removeAttribute("width");
+    svg.removeAttribute("height");
+    svg.setAttribute("preserveAspectRatio", "xMidYMid meet");
+  }
+
+  function showDrawing(text, version) {
+    const doc = new DOMParser().parseFromString(text, "image/svg+xml");
+    const svg = doc.documentElement;
+    if (svg.nodeName !== "svg") return;
+    // its stylesheet comes with /view.css (the page's policy allows no inline style)
+    for (const s of svg.querySelectorAll("style")) s.remove();
+    const node = document.importNode(svg, true);
+    const box = $("lattice");
+    box.replaceChildren(node);
+    drawing = node;
+    drawn = version;
+    fitDrawing(node);
+    if (last) light(last);
+  }
+
+  function fetchDrawing(version) {
+    if (fetching === version) return;
+    fetching = version;
+    fetch("/lattice.svg?v=" + version, { cache: "no-store" })
+      .then((r) => (r.ok ? r.text() : Promise.reject(r.status)))
+      .then((t) => { if (fetching === version) showDrawing(t, version); })
+      .catch(() => { fetching = 0; });
+  }
+
+  function light(state) {
+    if (!drawing) return;
+    const lit = new Set(state.lit || []);
+    for (const g of drawing.querySelectorAll("g.tone")) {
+      g.classList.toggle("lit", lit.has(Number(g.dataset.tone)));
+    }
+    const chord = state.chord ? state.chord.index : -1;
+    for (const p of drawing.querySelectorAll("polygon.chord")) {
+      p.classList.toggle("lit", Number(p.dataset.chord) === chord);
+    }
+  }
+
+  function toneLabel(index) {
+    const g = drawing && drawing.querySelector("#tone-" + index);
+    return g ? g.dataset.seeds : String(index);
+  }
+
+  function showChord(state) {
+    const name = $("chord-name"), detail = $("chord-detail");
+    const lit = state.lit || [];
+    if (state.chord) {
+      const c = state.chord;
+      name.textContent = c.proportion || c.tones.map(toneLabel).join(" ");
+      name.className = c.kind;
+      detail.textContent = c.kind === "harmonic"
+        ? "harmonic chord" + (c.seeds ? ", sharing " + c.seeds : "")
+        : "subharmonic chord" + (c.seeds ? ", inside " + c.seeds : "");
+    } else if (lit.length) {
+      name.textContent = lit.map(toneLabel).join("  ");
+      name.className = "tones";
+      detail.textContent = lit.length === 1 ? "one tone" : lit.length + " tones, not one chord";
+    } else {
+      name.textContent = "\u2013";
+      name.className = "none";
+      detail.textContent = "nothing sounds";
+    }
+  }
+
+  function showControls(state) {
+    const box = $("controls");
+    box.hidden = !state.control;
+    if (!state.control) return;
+    $("token-row").hidden = token !== "";
+    const presets = $("presets");
+    const names = state.presets || [];
+    if (presets.dataset.names !== names.join("\n")) {
+      presets.dataset.names = names.join("\n");
+      presets.replaceChildren(...names.map((n, i) => {
+        const b = document.createElement("button");
+        b.type = "button";
+        b.textContent = n;
+        b.addEventListener("click", () => send("preset " + i));
+        return b;
+      }));
+    }
+    presets.querySelectorAll("button").forEach((b, i) => {
+      b.classList.toggle("current", state.preset && state.preset.index === i);
+    });
+    for (const b of box.querySelectorAll("button")) b.disabled = state.daemon !== "up";
+    $("token-use").disabled = false;
+  }
+
+  function apply(state) {
+    last = state;
+    const up = state.daemon === "up";
+    setLink(up ? "up" : "down", up ? "live" : "latticed gone");
+    document.body.classList.toggle("gone", !up);
+    $("gone").hidden = up;
+    $("gone-text").textContent = up ? "" : state.message;
+    $("message").textContent = up ? state.message : "";
+    $("preset").textContent = up ? state.preset.name : "\u2013";
+    $("root").textContent = up ? state.root.label : "\u2013";
+    if (state.drawing && state.drawing !== drawn) fetchDrawing(state.drawing);
+    light(state);
+    showChord(state);
+    showControls(state);
+  }
+
+  function send(line) {
+    const result = $("control-result");
+    fetch("/control", {
+      method: "POST",
+      headers: { "Content-Type": "text/plain", "X-Latticed-Token": token },
+      body: line
+    }).then((r) => r.json().then((j) => ({ status: r.status, j })))
+      .then(({ status, j }) => {
+        result.textContent = j.ok ? j.message : j.error;
+        result.className = j.ok ? "ok" : "bad";
+        if (status === 403 && /token/.test(j.error || "")) {
+          token = "";
+          sessionStorage.removeItem("latticed-token");
+          $("token-row").hidden = false;
+        }
+      })
+      .catch(() => { result.textContent = "no answer from latticed view"; result.className = "bad"; });
+  }
+
+  function root(step) {
+    if (!last || !last.root) return;
+    const tones = last.tones || 0;
+    const slot = Math.min(Math.max(last.root.slot + step, 0), tones);
+    send("root " + slot);
+  }
+
+  $("root-down").addEventListener("click", () => root(-1));
+  $("root-up").addEventListener("click", () => root(1));
+  $("root-home").addEventListener("click", () => send("root 0"));
+  $("panic").addEventListener("click", () => send("panic"));
+  $("token-use").addEventListener("click", () => {
+    token = $("token-input").value.trim();
+    sessionStorage.setItem("latticed-token", token);
+    $("token-input").value = "";
+    $("token-row").hidden = token !== "";
+  });
+
+  function follow() {
+    const events = new EventSource("/events");
+    events.onmessage = (e) => {
+      try { apply(JSON.parse(e.data)); } catch (err) { /* a broken message: the next one says it all */ }
+    };
+    events.onerror = () => {
+      setLink("lost", "no connection to latticed view");
+      document.body.classList.add("gone");
+      $("gone").hidden = false;
+      $("gone-title").textContent = "this page lost latticed view";
+      $("gone-text").textContent = "trying again";
+    };
+    events.onopen = () => { $("gone-title").textContent = "latticed is not running"; };
+  }
+  follow();
+})();
