@@ -26,6 +26,7 @@
 
 #define VIEW_DEFAULT_PORT 7316
 #define VIEW_CLIENTS_MAX 32          /* HTTP connections at once, event streams included */
+#define VIEW_STREAMS_MAX 24          /* event streams (open pages) among them */
 #define VIEW_TOKEN_MAX 128
 #define VIEW_TOKEN_MIN 16
 
@@ -44,9 +45,8 @@ struct view {
 	char *svg;                       /* the drawing, malloc'd, or NULL */
 	size_t svg_length;
 	bool daemon_up;
+	int streams;                     /* event streams open */
 	char socket_path[CONTROL_PATH_MAX]; /* where the daemon answered last */
-	int64_t refused_logged_ms;       /* refused control requests: one log line per 10 s */
-	unsigned long refused_unlogged;
 };
 
 /* Sets up the lock and the condition; false if pthread refuses. */

@@ -31,6 +31,7 @@
 #include "view_assets.h"
 
 #define STREAM_WAIT_MS 500
+#define STREAM_SNDBUF 16384
 #define CONTROL_REPLY_MAX 65536
 #define CONTROL_WAIT_MS 5000
 #define LOG_EVERY_MS 10000
@@ -76,30 +77,51 @@ bool view_token_matches(const char *given, const char *want, size_t want_length)
 	return diff == 0;
 }
 
-/* libmicrohttpd's own messages (a full table, a broken request): one line
- * per LOG_EVERY_MS, with how many were left out. */
+/* One kind of log line at most every LOG_EVERY_MS, counting the rest. */
+struct log_limit {
+	pthread_mutex_t lock;
+	int64_t last;
+	unsigned long skipped;
+};
+
+static void log_limited(struct log_limit *l, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+
+static void log_limited(struct log_limit *l, const char *fmt, ...)
+{
+	char text[300];
+	va_list ap;
+	va_start(ap, fmt);
+	vsnprintf(text, sizeof text, fmt, ap);
+	va_end(ap);
+	text[strcspn(text, "\n")] = '\0';
+	pthread_mutex_lock(&l->lock);
+	int64_t now = monotonic_ms();
+	bool say = !l->last || now - l->last >= LOG_EVERY_MS;
+	unsigned long skipped = l->skipped;
+	if (say) {
+		l->last = now;
+		l->skipped = 0;
+	} else {
+		l->skipped++;
+	}
+	pthread_mutex_unlock(&l->lock);
+	if (say && skipped)
+		log_print(LOG_LEVEL_WARNING, "%s (and %lu more like it since the last such line)", text, skipped);
+	else if (say)
+		log_print(LOG_LEVEL_WARNING, "%s", text);
+}
+
+static struct log_limit http_messages = {PTHREAD_MUTEX_INITIALIZER, 0, 0};
+static struct log_limit refusals = {PTHREAD_MUTEX_INITIALIZER, 0, 0};
+static struct log_limit timeouts = {PTHREAD_MUTEX_INITIALIZER, 0, 0};
+
+/* libmicrohttpd's own messages (a full table, a broken request). */
 static void mhd_log(void *context, const char *fmt, va_list ap)
 {
-	static pthread_mutex_t lock = PTHREAD_MUTEX_INITIALIZER;
-	static int64_t last;
-	static unsigned long skipped;
 	(void)context;
 	char text[256];
 	vsnprintf(text, sizeof text, fmt, ap);
-	text[strcspn(text, "\n")] = '\0';
-	pthread_mutex_lock(&lock);
-	int64_t now = monotonic_ms();
-	if (last && now - last < LOG_EVERY_MS) {
-		skipped++;
-	} else {
-		if (skipped)
-			log_print(LOG_LEVEL_WARNING, "view: http: %s (and %lu more such messages)", text, skipped);
-		else
-			log_print(LOG_LEVEL_WARNING, "view: http: %s", text);
-		last = now;
-		skipped = 0;
-	}
-	pthread_mutex_unlock(&lock);
+	log_limited(&http_messages, "view: http: %s", text);
 }
 
 static void add_headers(struct MHD_Response *r, const char *type, const char *policy)
@@ -248,27 +270,66 @@ static ssize_t stream_read(void *context, uint64_t pos, char *buf, size_t max)
 	return (ssize_t)n;
 }
 
+static void stream_free_place(struct view *v)
+{
+	pthread_mutex_lock(&v->lock);
+	v->streams--;
+	pthread_mutex_unlock(&v->lock);
+}
+
 static void stream_free(void *context)
 {
 	struct stream *st = context;
+	stream_free_place(st->v);
 	free(st->out);
 	free(st);
 }
 
+/* A place for one more event stream; false when VIEW_STREAMS_MAX are open. */
+static bool take_stream(struct view *v)
+{
+	pthread_mutex_lock(&v->lock);
+	bool room = v->streams < VIEW_STREAMS_MAX;
+	v->streams += room;
+	pthread_mutex_unlock(&v->lock);
+	return room;
+}
+
 static enum MHD_Result serve_events(struct view_server *s, struct MHD_Connection *c)
 {
+	if (!take_stream(s->v)) {
+		struct MHD_Response *busy = MHD_create_response_from_buffer(
+			0, (void *)"", MHD_RESPMEM_PERSISTENT);
+		if (!busy)
+			return MHD_NO;
+		add_headers(busy, "text/plain", page_policy);
+		MHD_add_response_header(busy, MHD_HTTP_HEADER_CONNECTION, "close"); /* free the place now */
+		MHD_add_response_header(busy, MHD_HTTP_HEADER_RETRY_AFTER, "2");
+		enum MHD_Result ok = MHD_queue_response(c, MHD_HTTP_SERVICE_UNAVAILABLE, busy);
+		MHD_destroy_response(busy);
+		return ok;
+	}
+	/* a stream is quiet up to VIEW_KEEPALIVE_S between messages */
+	MHD_set_connection_option(c, MHD_CONNECTION_OPTION_TIMEOUT, (unsigned)VIEW_STREAM_IDLE_S);
 	struct stream *st = calloc(1, sizeof *st);
-	if (!st)
+	if (!st) {
+		stream_free_place(s->v);
 		return MHD_NO;
+	}
 	const union MHD_ConnectionInfo *info = MHD_get_connection_info(c, MHD_CONNECTION_INFO_CONNECTION_FD);
 	st->v = s->v;
 	st->fd = info ? info->connect_fd : -1;
+	/* a small send buffer: a browser that takes nothing is found out (and
+	 * closed) after kilobytes, not after the megabytes the kernel allows */
+	int sndbuf = STREAM_SNDBUF;
+	if (st->fd >= 0)
+		(void)setsockopt(st->fd, SOL_SOCKET, SO_SNDBUF, &sndbuf, sizeof sndbuf);
 	st->first = true;
 	st->last_ms = monotonic_ms();
 	struct MHD_Response *r = MHD_create_response_from_callback(MHD_SIZE_UNKNOWN, 4096, stream_read,
 								   st, stream_free);
 	if (!r) {
-		free(st);
+		stream_free(st);
 		return MHD_NO;
 	}
 	add_headers(r, "text/event-stream; charset=utf-8", page_policy);
@@ -382,24 +443,11 @@ static enum MHD_Result forward(struct view_server *s, struct MHD_Connection *c, 
 	return r;
 }
 
-static void log_refusal(struct view *v, struct MHD_Connection *c, const char *why)
+static void log_refusal(struct MHD_Connection *c, const char *why)
 {
 	char who[INET6_ADDRSTRLEN];
 	client_address(c, who, sizeof who);
-	pthread_mutex_lock(&v->lock);
-	int64_t now = monotonic_ms();
-	bool say = !v->refused_logged_ms || now - v->refused_logged_ms >= LOG_EVERY_MS;
-	unsigned long before = v->refused_unlogged;
-	if (say) {
-		v->refused_logged_ms = now;
-		v->refused_unlogged = 0;
-	} else {
-		v->refused_unlogged++;
-	}
-	pthread_mutex_unlock(&v->lock);
-	if (say)
-		log_print(LOG_LEVEL_WARNING, "view: control request from %s refused: %s%s", who, why,
-			  before ? " (and others since the last such line)" : "");
+	log_limited(&refusals, "view: control request from %s refused: %s", who, why);
 }
 
 static enum MHD_Result serve_control(struct view_server *s, struct MHD_Connection *c,
@@ -411,7 +459,7 @@ static enum MHD_Result serve_control(struct view_server *s, struct MHD_Connectio
 				       "control is off: this page is read-only (start latticed view with --control)");
 	const char *token = MHD_lookup_connection_value(c, MHD_HEADER_KIND, "X-Latticed-Token");
 	if (!token || !view_token_matches(token, v->token, v->token_length)) {
-		log_refusal(v, c, token ? "wrong token" : "no token");
+		log_refusal(c, token ? "wrong token" : "no token");
 		return send_error_json(c, MHD_HTTP_FORBIDDEN, "wrong or missing token");
 	}
 	if (req->too_big)
@@ -442,6 +490,8 @@ static enum MHD_Result route_get(struct view_server *s, struct MHD_Connection *c
 		return serve_state(s, c);
 	if (strcmp(url, "/events") == 0)
 		return serve_events(s, c);
+	if (strcmp(url, "/favicon.ico") == 0)
+		return send_copy(c, MHD_HTTP_NO_CONTENT, "image/x-icon", page_policy, "", 0);
 	return send_text(c, MHD_HTTP_NOT_FOUND, "not here: the page is at /");
 }
 
@@ -508,8 +558,11 @@ static void on_completed(void *context, struct MHD_Connection *c, void **request
 			 enum MHD_RequestTerminationCode why)
 {
 	(void)context;
-	(void)c;
-	(void)why;
+	if (why == MHD_REQUEST_TERMINATED_TIMEOUT_REACHED) {
+		char who[INET6_ADDRSTRLEN];
+		client_address(c, who, sizeof who);
+		log_limited(&timeouts, "view: closed a connection from %s that took nothing for its time limit", who);
+	}
 	free(*request_context);
 	*request_context = NULL;
 }

@@ -11,10 +11,13 @@
  * header, only with --control: the request goes to the daemon's control
  * socket and its answer comes back as JSON.
  *
- * Limits: VIEW_CLIENTS_MAX connections at once (libmicrohttpd closes any
- * more at once), request headers within VIEW_HEADERS_MAX bytes, bodies
+ * Limits: VIEW_CLIENTS_MAX connections at once (libmicrohttpd takes no
+ * more until one ends), of which at most VIEW_STREAMS_MAX event streams (a
+ * page more gets 503 and its script tries again), so open pages cannot
+ * keep a page load out; request headers within VIEW_HEADERS_MAX bytes, bodies
  * within VIEW_BODY_MAX (413 otherwise), a connection quiet for
- * VIEW_IDLE_S closed (a browser that never reads its event stream too).
+ * VIEW_IDLE_S closed, an event stream whose browser takes nothing for
+ * VIEW_STREAM_IDLE_S too.
  * Every answer carries a Content-Security-Policy that allows only this
  * server's own script, style and connections, no framing, no referrer;
  * there is no CORS header at all, so other sites' pages cannot read it or
@@ -34,7 +37,8 @@
 
 #define VIEW_BODY_MAX 256
 #define VIEW_HEADERS_MAX 16384
-#define VIEW_IDLE_S 30
+#define VIEW_IDLE_S 10               /* a connection with nothing to do */
+#define VIEW_STREAM_IDLE_S 30        /* an event stream whose browser takes nothing */
 #define VIEW_KEEPALIVE_S 15
 
 struct view_server;

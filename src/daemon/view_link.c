@@ -16,7 +16,6 @@
 
 #include "clock.h"
 #include "control_cmd.h"
-#include "control_server.h"
 #include "log_ring.h"
 
 volatile sig_atomic_t view_quit;
@@ -70,10 +69,18 @@ static int connect_first(struct view_link *l, const char **used, char *why, size
 	return -1;
 }
 
-/* What a line looked like, for a log line: its start, made printable. */
+/* What a line looked like, for a log line: its first bytes, each one not
+ * printable ASCII shown as '?'. */
 static void sample(const char *line, size_t length, char *out, size_t size)
 {
-	control_text_copy(out, size, line, length < 60 ? length : 60);
+	size_t n = 0;
+	for (; n < length && n < 60 && n + 4 < size; n++)
+		out[n] = line[n] >= 0x20 && line[n] < 0x7F ? line[n] : '?';
+	if (n < length && n + 4 < size) {
+		memcpy(out + n, "...", 3);
+		n += 3;
+	}
+	out[n] = '\0';
 }
 
 /* Takes each complete line in the buffer; false when the connection must end. */
@@ -91,9 +98,11 @@ static bool take_lines(struct view_link *l, const char *path, bool *ended, char 
 		struct json_object *o = json_tokener_parse_verbose(start, &jerr);
 		char err[300], shown[96];
 		if (!o) {
-			sample(start, (size_t)(nl - start), shown, sizeof shown);
+			size_t length = (size_t)(nl - start);
+			bool nul = memchr(start, '\0', length) != NULL;
+			sample(start, length, shown, sizeof shown);
 			snprintf(why, why_size, "the program at %s sent a line that is not JSON (%s): '%s'",
-				 path, json_tokener_error_desc(jerr), shown);
+				 path, nul ? "it holds NUL bytes" : json_tokener_error_desc(jerr), shown);
 			ok = false;
 		} else if (!view_model_apply(&l->model, o, ended, err, sizeof err)) {
 			snprintf(why, why_size, "the program at %s sent %s", path, err);

@@ -50,11 +50,12 @@
   }
 
   function showDrawing(text, version) {
-    const doc = new DOMParser().parseFromString(text, "image/svg+xml");
+    // its stylesheet comes with /view.css: the page's policy allows no
+    // inline style, and the drawing's own is for print
+    const bare = text.replace(/<style[^>]*>[\s\S]*?<\/style>/g, "");
+    const doc = new DOMParser().parseFromString(bare, "image/svg+xml");
     const svg = doc.documentElement;
     if (svg.nodeName !== "svg") return;
-    // its stylesheet comes with /view.css (the page's policy allows no inline style)
-    for (const s of svg.querySelectorAll("style")) s.remove();
     const node = document.importNode(svg, true);
     const box = $("lattice");
     box.replaceChildren(node);
@@ -194,6 +195,8 @@
       try { apply(JSON.parse(e.data)); } catch (err) { /* a broken message: the next one says it all */ }
     };
     events.onerror = () => {
+      // a refused stream (too many pages open) is not retried by the browser
+      if (events.readyState === EventSource.CLOSED) setTimeout(follow, 2000);
       setLink("lost", "no connection to latticed view");
       document.body.classList.add("gone");
       $("gone").hidden = false;
