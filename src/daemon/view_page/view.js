@@ -26,6 +26,30 @@
     $("link-text").textContent = text;
   }
 
+  // The drawing's tone boxes are sized for print; on a screen they grow as
+  // far as the closest two allow (at most twice), so a hexany reads from
+  // across a stage and an eikosany still keeps its boxes apart.
+  function growTones(svg) {
+    const boxes = Array.from(svg.querySelectorAll("g.tone > rect")).map((r) => {
+      const b = r.getBBox();
+      return { g: r.parentNode, x: b.x + b.width / 2, y: b.y + b.height / 2, w: b.width, h: b.height };
+    });
+    let room = 2;
+    for (let i = 0; i < boxes.length; i++) {
+      for (let j = i + 1; j < boxes.length; j++) {
+        const a = boxes[i], b = boxes[j];
+        // two boxes scaled by s touch when both gaps are below s times the size
+        const s = Math.max(Math.abs(a.x - b.x) / a.w, Math.abs(a.y - b.y) / a.h) * 0.92;
+        room = Math.min(room, s);
+      }
+    }
+    const scale = Math.max(1, room);
+    for (const b of boxes) {
+      b.g.setAttribute("transform", "translate(" + b.x + " " + b.y + ") scale(" + scale.toFixed(3) +
+        ") translate(" + -b.x + " " + -b.y + ")");
+    }
+  }
+
   // Fit the view box to the lattice itself: the drawing's own title and
   // legend are for print and hidden here.
   function fitDrawing(svg) {
@@ -61,6 +85,7 @@
     box.replaceChildren(node);
     drawing = node;
     drawn = version;
+    growTones(node);
     fitDrawing(node);
     if (last) light(last);
   }
@@ -91,6 +116,16 @@
     return g ? g.dataset.seeds : String(index);
   }
 
+  // One line, as large as the panel allows (a seven-tone proportion too).
+  function fitText(el) {
+    el.style.fontSize = "";
+    let size = parseFloat(getComputedStyle(el).fontSize);
+    while (el.scrollWidth > el.clientWidth + 1 && size > 14) {
+      size *= 0.9;
+      el.style.fontSize = size + "px";
+    }
+  }
+
   function showChord(state) {
     const name = $("chord-name"), detail = $("chord-detail");
     const lit = state.lit || [];
@@ -110,6 +145,7 @@
       name.className = "none";
       detail.textContent = "nothing sounds";
     }
+    fitText(name);
   }
 
   function showControls(state) {
@@ -205,5 +241,6 @@
     };
     events.onopen = () => { $("gone-title").textContent = "latticed is not running"; };
   }
+  window.addEventListener("resize", () => fitText($("chord-name")));
   follow();
 })();
