@@ -276,10 +276,11 @@ def main():
             measure_page_latency(drv, d, tab)
             d.stop()
             v.stop()
-            raw_latency(raw, binary)
-            raw_latency(raw, binary, clients=10, drv=drv, tmp=tmp)
-            raw_latency(raw, binary, clients=10, tmp=tmp, streams=True)
-            raw_latency(raw, binary)
+            # twice each, interleaved: the machine's load changes meanwhile
+            for _ in range(2):
+                raw_latency(raw, binary)
+                raw_latency(raw, binary, clients=10, drv=drv, tmp=tmp)
+                raw_latency(raw, binary, clients=10, tmp=tmp, streams=True)
         finally:
             drv.quit()
             if d.alive():
