@@ -1,11 +1,8 @@
 /*
  * view_http: see view_http.h.  libmicrohttpd runs a thread per connection
- * (MHD_USE_THREAD_PER_CONNECTION), so an event stream's reader may block:
- * it waits on the view's condition for a new page state, half a second at
- * a time, looking in between whether the browser hung up, so a closed tab
- * frees its connection within a second rather than at the next message.
+ * (MHD_USE_THREAD_PER_CONNECTION), so a control request may wait for the
+ * daemon's answer, and an event stream (view_stream.c) for the next change.
  */
-#define _GNU_SOURCE /* POLLRDHUP */
 #include "view_http.h"
 
 #include <arpa/inet.h>
@@ -25,22 +22,14 @@
 #include "clock.h"
 #include "control_cmd.h"
 #include "control_commands.h"
-#include "control_server.h"
 #include "draw_cmd.h"
-#include "log_ring.h"
 #include "view_assets.h"
+#include "view_response.h"
+#include "view_stream.h"
 
-#define STREAM_WAIT_MS 500
-#define STREAM_SNDBUF 16384
 #define CONTROL_REPLY_MAX 65536
 #define CONTROL_WAIT_MS 5000
-#define LOG_EVERY_MS 10000
 
-static const char page_policy[] =
-	"default-src 'none'; script-src 'self'; style-src 'self'; img-src 'self'; "
-	"connect-src 'self'; base-uri 'none'; form-action 'none'; frame-ancestors 'none'";
-/* the drawing opened on its own: its own stylesheet, nothing else */
-static const char svg_policy[] = "default-src 'none'; style-src 'unsafe-inline'; frame-ancestors 'none'";
 
 struct view_server {
 	struct view *v;
@@ -50,20 +39,9 @@ struct view_server {
 };
 
 struct request {
-	bool started;
 	bool too_big;
 	size_t length;
 	char body[VIEW_BODY_MAX + 1];
-};
-
-struct stream {
-	struct view *v;
-	int fd;                      /* the browser's socket, to see it hang up */
-	uint64_t sent;               /* version of the page state it has */
-	int64_t last_ms;             /* when something last went out */
-	bool first;
-	char *out;                   /* a message not yet all handed over */
-	size_t out_length, out_sent;
 };
 
 /* ---- small things ----------------------------------------------------------------- */
@@ -77,43 +55,9 @@ bool view_token_matches(const char *given, const char *want, size_t want_length)
 	return diff == 0;
 }
 
-/* One kind of log line at most every LOG_EVERY_MS, counting the rest. */
-struct log_limit {
-	pthread_mutex_t lock;
-	int64_t last;
-	unsigned long skipped;
-};
-
-static void log_limited(struct log_limit *l, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
-
-static void log_limited(struct log_limit *l, const char *fmt, ...)
-{
-	char text[300];
-	va_list ap;
-	va_start(ap, fmt);
-	vsnprintf(text, sizeof text, fmt, ap);
-	va_end(ap);
-	text[strcspn(text, "\n")] = '\0';
-	pthread_mutex_lock(&l->lock);
-	int64_t now = monotonic_ms();
-	bool say = !l->last || now - l->last >= LOG_EVERY_MS;
-	unsigned long skipped = l->skipped;
-	if (say) {
-		l->last = now;
-		l->skipped = 0;
-	} else {
-		l->skipped++;
-	}
-	pthread_mutex_unlock(&l->lock);
-	if (say && skipped)
-		log_print(LOG_LEVEL_WARNING, "%s (and %lu more like it since the last such line)", text, skipped);
-	else if (say)
-		log_print(LOG_LEVEL_WARNING, "%s", text);
-}
-
-static struct log_limit http_messages = {PTHREAD_MUTEX_INITIALIZER, 0, 0};
-static struct log_limit refusals = {PTHREAD_MUTEX_INITIALIZER, 0, 0};
-static struct log_limit timeouts = {PTHREAD_MUTEX_INITIALIZER, 0, 0};
+static struct view_log_limit http_messages = {PTHREAD_MUTEX_INITIALIZER, 0, 0};
+static struct view_log_limit refusals = {PTHREAD_MUTEX_INITIALIZER, 0, 0};
+static struct view_log_limit timeouts = {PTHREAD_MUTEX_INITIALIZER, 0, 0};
 
 /* libmicrohttpd's own messages (a full table, a broken request). */
 static void mhd_log(void *context, const char *fmt, va_list ap)
@@ -121,62 +65,7 @@ static void mhd_log(void *context, const char *fmt, va_list ap)
 	(void)context;
 	char text[256];
 	vsnprintf(text, sizeof text, fmt, ap);
-	log_limited(&http_messages, "view: http: %s", text);
-}
-
-static void add_headers(struct MHD_Response *r, const char *type, const char *policy)
-{
-	MHD_add_response_header(r, MHD_HTTP_HEADER_CONTENT_TYPE, type);
-	MHD_add_response_header(r, MHD_HTTP_HEADER_CONTENT_SECURITY_POLICY, policy);
-	MHD_add_response_header(r, "X-Content-Type-Options", "nosniff");
-	MHD_add_response_header(r, "Referrer-Policy", "no-referrer");
-	MHD_add_response_header(r, "X-Frame-Options", "DENY");
-	MHD_add_response_header(r, MHD_HTTP_HEADER_CACHE_CONTROL, "no-store");
-}
-
-static enum MHD_Result send_copy(struct MHD_Connection *c, unsigned status, const char *type,
-				 const char *policy, const void *bytes, size_t length)
-{
-	struct MHD_Response *r = MHD_create_response_from_buffer(length, (void *)bytes,
-								 MHD_RESPMEM_MUST_COPY);
-	if (!r)
-		return MHD_NO;
-	add_headers(r, type, policy);
-	enum MHD_Result ok = MHD_queue_response(c, status, r);
-	MHD_destroy_response(r);
-	return ok;
-}
-
-static enum MHD_Result send_text(struct MHD_Connection *c, unsigned status, const char *text)
-{
-	char line[512];
-	snprintf(line, sizeof line, "%s\n", text);
-	return send_copy(c, status, "text/plain; charset=utf-8", page_policy, line, strlen(line));
-}
-
-/* {"ok":false,"error":text} with the status */
-static enum MHD_Result send_error_json(struct MHD_Connection *c, unsigned status, const char *text)
-{
-	struct json_object *o = json_object_new_object();
-	json_object_object_add(o, "ok", json_object_new_boolean(false));
-	json_object_object_add(o, "error", json_object_new_string(text));
-	const char *s = json_object_to_json_string_ext(o, JSON_C_TO_STRING_PLAIN);
-	enum MHD_Result ok = send_copy(c, status, "application/json", page_policy, s, strlen(s));
-	json_object_put(o);
-	return ok;
-}
-
-static void client_address(struct MHD_Connection *c, char *out, size_t size)
-{
-	const union MHD_ConnectionInfo *info = MHD_get_connection_info(c, MHD_CONNECTION_INFO_CLIENT_ADDRESS);
-	snprintf(out, size, "?");
-	if (!info || !info->client_addr)
-		return;
-	const struct sockaddr *a = info->client_addr;
-	if (a->sa_family == AF_INET)
-		inet_ntop(AF_INET, &((const struct sockaddr_in *)(const void *)a)->sin_addr, out, (socklen_t)size);
-	else if (a->sa_family == AF_INET6)
-		inet_ntop(AF_INET6, &((const struct sockaddr_in6 *)(const void *)a)->sin6_addr, out, (socklen_t)size);
+	view_log_limited(&http_messages, "view: http: %s", text);
 }
 
 /* A Host header naming this machine's loopback: 127.x.x.x, ::1 or localhost. */
@@ -199,145 +88,6 @@ static bool loopback_host(const char *host)
 	return strcasecmp(name, "localhost") == 0;
 }
 
-/* ---- the event stream ---------------------------------------------------------------- */
-
-static bool hung_up(int fd)
-{
-	struct pollfd p = {.fd = fd, .events = POLLRDHUP};
-	return fd >= 0 && poll(&p, 1, 0) > 0 && (p.revents & (POLLRDHUP | POLLHUP | POLLERR));
-}
-
-static void wait_a_little(struct view *v)
-{
-	struct timespec until;
-	clock_gettime(CLOCK_MONOTONIC, &until);
-	until.tv_nsec += STREAM_WAIT_MS * 1000000L;
-	until.tv_sec += until.tv_nsec / 1000000000L;
-	until.tv_nsec %= 1000000000L;
-	pthread_cond_timedwait(&v->changed, &v->lock, &until);
-}
-
-/* The next message: the page state when it changed, else a keep-alive
- * comment when one is due; NULL to end the stream. */
-static char *next_message(struct stream *st)
-{
-	struct view *v = st->v;
-	char *msg = NULL;
-	pthread_mutex_lock(&v->lock);
-	for (;;) {
-		if (v->stopping)
-			break;
-		if (v->page && (st->first || v->version != st->sent)) {
-			size_t n = strlen(v->page) + 32;
-			msg = malloc(n);
-			if (msg)
-				snprintf(msg, n, "%sdata: %s\n\n", st->first ? "retry: 1000\n" : "", v->page);
-			st->sent = v->version;
-			st->first = false;
-			break;
-		}
-		if (monotonic_ms() - st->last_ms >= VIEW_KEEPALIVE_S * 1000) {
-			msg = strdup(": still here\n\n");
-			break;
-		}
-		wait_a_little(v);
-		if (hung_up(st->fd))
-			break;
-	}
-	pthread_mutex_unlock(&v->lock);
-	return msg;
-}
-
-static ssize_t stream_read(void *context, uint64_t pos, char *buf, size_t max)
-{
-	struct stream *st = context;
-	(void)pos;
-	if (!st->out) {
-		st->out = next_message(st);
-		if (!st->out)
-			return MHD_CONTENT_READER_END_OF_STREAM;
-		st->out_length = strlen(st->out);
-		st->out_sent = 0;
-	}
-	size_t n = st->out_length - st->out_sent < max ? st->out_length - st->out_sent : max;
-	memcpy(buf, st->out + st->out_sent, n);
-	st->out_sent += n;
-	if (st->out_sent == st->out_length) {
-		free(st->out);
-		st->out = NULL;
-	}
-	st->last_ms = monotonic_ms();
-	return (ssize_t)n;
-}
-
-static void stream_free_place(struct view *v)
-{
-	pthread_mutex_lock(&v->lock);
-	v->streams--;
-	pthread_mutex_unlock(&v->lock);
-}
-
-static void stream_free(void *context)
-{
-	struct stream *st = context;
-	stream_free_place(st->v);
-	free(st->out);
-	free(st);
-}
-
-/* A place for one more event stream; false when VIEW_STREAMS_MAX are open. */
-static bool take_stream(struct view *v)
-{
-	pthread_mutex_lock(&v->lock);
-	bool room = v->streams < VIEW_STREAMS_MAX;
-	v->streams += room;
-	pthread_mutex_unlock(&v->lock);
-	return room;
-}
-
-static enum MHD_Result serve_events(struct view_server *s, struct MHD_Connection *c)
-{
-	if (!take_stream(s->v)) {
-		struct MHD_Response *busy = MHD_create_response_from_buffer(
-			0, (void *)"", MHD_RESPMEM_PERSISTENT);
-		if (!busy)
-			return MHD_NO;
-		add_headers(busy, "text/plain", page_policy);
-		MHD_add_response_header(busy, MHD_HTTP_HEADER_CONNECTION, "close"); /* free the place now */
-		MHD_add_response_header(busy, MHD_HTTP_HEADER_RETRY_AFTER, "2");
-		enum MHD_Result ok = MHD_queue_response(c, MHD_HTTP_SERVICE_UNAVAILABLE, busy);
-		MHD_destroy_response(busy);
-		return ok;
-	}
-	/* a stream is quiet up to VIEW_KEEPALIVE_S between messages */
-	MHD_set_connection_option(c, MHD_CONNECTION_OPTION_TIMEOUT, (unsigned)VIEW_STREAM_IDLE_S);
-	struct stream *st = calloc(1, sizeof *st);
-	if (!st) {
-		stream_free_place(s->v);
-		return MHD_NO;
-	}
-	const union MHD_ConnectionInfo *info = MHD_get_connection_info(c, MHD_CONNECTION_INFO_CONNECTION_FD);
-	st->v = s->v;
-	st->fd = info ? info->connect_fd : -1;
-	/* a small send buffer: a browser that takes nothing is found out (and
-	 * closed) after kilobytes, not after the megabytes the kernel allows */
-	int sndbuf = STREAM_SNDBUF;
-	if (st->fd >= 0)
-		(void)setsockopt(st->fd, SOL_SOCKET, SO_SNDBUF, &sndbuf, sizeof sndbuf);
-	st->first = true;
-	st->last_ms = monotonic_ms();
-	struct MHD_Response *r = MHD_create_response_from_callback(MHD_SIZE_UNKNOWN, 4096, stream_read,
-								   st, stream_free);
-	if (!r) {
-		stream_free(st);
-		return MHD_NO;
-	}
-	add_headers(r, "text/event-stream; charset=utf-8", page_policy);
-	enum MHD_Result ok = MHD_queue_response(c, MHD_HTTP_OK, r);
-	MHD_destroy_response(r);
-	return ok;
-}
-
 /* ---- what the view knows -------------------------------------------------------------- */
 
 static enum MHD_Result serve_state(struct view_server *s, struct MHD_Connection *c)
@@ -347,8 +97,8 @@ static enum MHD_Result serve_state(struct view_server *s, struct MHD_Connection 
 	char *page = v->page ? strdup(v->page) : NULL;
 	pthread_mutex_unlock(&v->lock);
 	if (!page)
-		return send_text(c, MHD_HTTP_SERVICE_UNAVAILABLE, "starting");
-	enum MHD_Result ok = send_copy(c, MHD_HTTP_OK, "application/json", page_policy, page, strlen(page));
+		return view_send_text(c, MHD_HTTP_SERVICE_UNAVAILABLE, "starting");
+	enum MHD_Result ok = view_send_copy(c, MHD_HTTP_OK, "application/json", view_page_policy, page, strlen(page));
 	free(page);
 	return ok;
 }
@@ -363,13 +113,13 @@ static enum MHD_Result serve_drawing(struct view_server *s, struct MHD_Connectio
 		memcpy(svg, v->svg, length);
 	pthread_mutex_unlock(&v->lock);
 	if (!svg)
-		return send_text(c, MHD_HTTP_SERVICE_UNAVAILABLE, "no drawing yet: latticed is not followed");
+		return view_send_text(c, MHD_HTTP_SERVICE_UNAVAILABLE, "no drawing yet: latticed is not followed");
 	struct MHD_Response *r = MHD_create_response_from_buffer(length, svg, MHD_RESPMEM_MUST_FREE);
 	if (!r) {
 		free(svg);
 		return MHD_NO;
 	}
-	add_headers(r, "image/svg+xml", svg_policy);
+	view_add_headers(r, "image/svg+xml", view_svg_policy);
 	enum MHD_Result ok = MHD_queue_response(c, MHD_HTTP_OK, r);
 	MHD_destroy_response(r);
 	return ok;
@@ -412,7 +162,7 @@ static enum MHD_Result forward(struct view_server *s, struct MHD_Connection *c, 
 	snprintf(path, sizeof path, "%s", s->v->socket_path);
 	pthread_mutex_unlock(&s->v->lock);
 	if (!up)
-		return send_error_json(c, MHD_HTTP_SERVICE_UNAVAILABLE, "latticed is not running");
+		return view_send_error_json(c, MHD_HTTP_SERVICE_UNAVAILABLE, "latticed is not running");
 	int fd = control_connect(path, 2000);
 	char *answer = NULL;
 	if (fd >= 0) {
@@ -426,7 +176,7 @@ static enum MHD_Result forward(struct view_server *s, struct MHD_Connection *c, 
 	struct json_object *okv = NULL, *text = NULL;
 	if (!json_object_is_type(o, json_type_object) || !json_object_object_get_ex(o, "ok", &okv)) {
 		json_object_put(o);
-		return send_error_json(c, MHD_HTTP_BAD_GATEWAY, "latticed gave no answer");
+		return view_send_error_json(c, MHD_HTTP_BAD_GATEWAY, "latticed gave no answer");
 	}
 	bool ok = json_object_get_boolean(okv);
 	json_object_object_get_ex(o, ok ? "message" : "error", &text);
@@ -436,8 +186,8 @@ static enum MHD_Result forward(struct view_server *s, struct MHD_Connection *c, 
 			       json_object_new_string(json_object_is_type(text, json_type_string)
 						      ? json_object_get_string(text) : ""));
 	const char *body = json_object_to_json_string_ext(out, JSON_C_TO_STRING_PLAIN);
-	enum MHD_Result r = send_copy(c, ok ? MHD_HTTP_OK : MHD_HTTP_UNPROCESSABLE_CONTENT,
-				      "application/json", page_policy, body, strlen(body));
+	enum MHD_Result r = view_send_copy(c, ok ? MHD_HTTP_OK : MHD_HTTP_UNPROCESSABLE_CONTENT,
+				      "application/json", view_page_policy, body, strlen(body));
 	json_object_put(out);
 	json_object_put(o);
 	return r;
@@ -446,8 +196,8 @@ static enum MHD_Result forward(struct view_server *s, struct MHD_Connection *c, 
 static void log_refusal(struct MHD_Connection *c, const char *why)
 {
 	char who[INET6_ADDRSTRLEN];
-	client_address(c, who, sizeof who);
-	log_limited(&refusals, "view: control request from %s refused: %s", who, why);
+	view_client_address(c, who, sizeof who);
+	view_log_limited(&refusals, "view: control request from %s refused: %s", who, why);
 }
 
 static enum MHD_Result serve_control(struct view_server *s, struct MHD_Connection *c,
@@ -455,22 +205,22 @@ static enum MHD_Result serve_control(struct view_server *s, struct MHD_Connectio
 {
 	struct view *v = s->v;
 	if (!v->control)
-		return send_error_json(c, MHD_HTTP_FORBIDDEN,
+		return view_send_error_json(c, MHD_HTTP_FORBIDDEN,
 				       "control is off: this page is read-only (start latticed view with --control)");
 	const char *token = MHD_lookup_connection_value(c, MHD_HEADER_KIND, "X-Latticed-Token");
 	if (!token || !view_token_matches(token, v->token, v->token_length)) {
 		log_refusal(c, token ? "wrong token" : "no token");
-		return send_error_json(c, MHD_HTTP_FORBIDDEN, "wrong or missing token");
+		return view_send_error_json(c, MHD_HTTP_FORBIDDEN, "wrong or missing token");
 	}
 	if (req->too_big)
-		return send_error_json(c, MHD_HTTP_CONTENT_TOO_LARGE, "request too long");
+		return view_send_error_json(c, MHD_HTTP_CONTENT_TOO_LARGE, "request too long");
 	req->body[req->length] = '\0';
 	char arg[VIEW_BODY_MAX + 1];
 	const struct control_command *cmd = control_command_parse(req->body, arg, sizeof arg);
 	bool allowed = cmd && (cmd->kind == CONTROL_PANIC || cmd->kind == CONTROL_PRESET ||
 			       cmd->kind == CONTROL_ROOT);
 	if (!allowed || strchr(req->body, '\n') || strchr(req->body, '\r'))
-		return send_error_json(c, MHD_HTTP_BAD_REQUEST, "expected panic, preset NAME or root N");
+		return view_send_error_json(c, MHD_HTTP_BAD_REQUEST, "expected panic, preset NAME or root N");
 	return forward(s, c, req->body);
 }
 
@@ -489,10 +239,10 @@ static enum MHD_Result route_get(struct view_server *s, struct MHD_Connection *c
 	if (strcmp(url, "/state") == 0)
 		return serve_state(s, c);
 	if (strcmp(url, "/events") == 0)
-		return serve_events(s, c);
+		return view_stream_serve(s->v, c);
 	if (strcmp(url, "/favicon.ico") == 0)
-		return send_copy(c, MHD_HTTP_NO_CONTENT, "image/x-icon", page_policy, "", 0);
-	return send_text(c, MHD_HTTP_NOT_FOUND, "not here: the page is at /");
+		return view_send_copy(c, MHD_HTTP_NO_CONTENT, "image/x-icon", view_page_policy, "", 0);
+	return view_send_text(c, MHD_HTTP_NOT_FOUND, "not here: the page is at /");
 }
 
 /* The body of a POST, kept up to VIEW_BODY_MAX bytes; the rest is read and dropped. */
@@ -521,7 +271,7 @@ static enum MHD_Result on_request(void *context, struct MHD_Connection *c, const
 		*request_context = req;
 		const char *length = MHD_lookup_connection_value(c, MHD_HEADER_KIND, "Content-Length");
 		if (length && strtoull(length, NULL, 10) > VIEW_BODY_MAX)
-			return send_error_json(c, MHD_HTTP_CONTENT_TOO_LARGE, "request too long");
+			return view_send_error_json(c, MHD_HTTP_CONTENT_TOO_LARGE, "request too long");
 		return MHD_YES;
 	}
 	if (*size) {
@@ -530,7 +280,7 @@ static enum MHD_Result on_request(void *context, struct MHD_Connection *c, const
 	}
 	const char *host = MHD_lookup_connection_value(c, MHD_HEADER_KIND, "Host");
 	if (s->v->loopback && host && !loopback_host(host))
-		return send_text(c, MHD_HTTP_MISDIRECTED_REQUEST,
+		return view_send_text(c, MHD_HTTP_MISDIRECTED_REQUEST,
 				 "this view listens on the loopback address only; open it as http://127.0.0.1:PORT/");
 	bool get = strcmp(method, "GET") == 0 || strcmp(method, "HEAD") == 0;
 	if (strcmp(method, "POST") == 0 && strcmp(url, "/control") == 0) {
@@ -538,14 +288,14 @@ static enum MHD_Result on_request(void *context, struct MHD_Connection *c, const
 		char own[300];
 		snprintf(own, sizeof own, "http://%s", host ? host : "");
 		if (origin && strcmp(origin, own) != 0)
-			return send_error_json(c, MHD_HTTP_FORBIDDEN, "a page from elsewhere may not control latticed");
+			return view_send_error_json(c, MHD_HTTP_FORBIDDEN, "a page from elsewhere may not control latticed");
 		return serve_control(s, c, req);
 	}
 	if (!get) {
 		struct MHD_Response *r = MHD_create_response_from_buffer(0, (void *)"", MHD_RESPMEM_PERSISTENT);
 		if (!r)
 			return MHD_NO;
-		add_headers(r, "text/plain", page_policy);
+		view_add_headers(r, "text/plain", view_page_policy);
 		MHD_add_response_header(r, MHD_HTTP_HEADER_ALLOW, "GET, HEAD, POST");
 		enum MHD_Result ok = MHD_queue_response(c, MHD_HTTP_METHOD_NOT_ALLOWED, r);
 		MHD_destroy_response(r);
@@ -560,8 +310,8 @@ static void on_completed(void *context, struct MHD_Connection *c, void **request
 	(void)context;
 	if (why == MHD_REQUEST_TERMINATED_TIMEOUT_REACHED) {
 		char who[INET6_ADDRSTRLEN];
-		client_address(c, who, sizeof who);
-		log_limited(&timeouts, "view: closed a connection from %s that took nothing for its time limit", who);
+		view_client_address(c, who, sizeof who);
+		view_log_limited(&timeouts, "view: closed a connection from %s that took nothing for its time limit", who);
 	}
 	free(*request_context);
 	*request_context = NULL;
@@ -574,7 +324,7 @@ static struct MHD_Response *asset(const void *bytes, size_t length, const char *
 	struct MHD_Response *r = MHD_create_response_from_buffer(length, (void *)bytes,
 								 MHD_RESPMEM_PERSISTENT);
 	if (r)
-		add_headers(r, type, page_policy);
+		view_add_headers(r, type, view_page_policy);
 	return r;
 }
 
