@@ -2,10 +2,13 @@
  * subscription: see subscription.h.  Channels are numbered 1 to 16 in the
  * lines, as in `latticed status`; keys 0 to 127.
  */
+/* realpath(3): in glibc only with XSI or the GNU extensions */
+#define _GNU_SOURCE
 #include "subscription.h"
 
 #include <json-c/json.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "config.h"
@@ -81,8 +84,11 @@ static struct json_object *state_object(const struct daemon *d, const char *why,
 	json_object_object_add(o, "event", json_object_new_string("state"));
 	json_object_object_add(o, "why", json_object_new_string(why));
 	json_object_object_add(o, "events_lost", json_object_new_int64((int64_t)lost));
-	json_object_object_add(o, "config",
-			       d->config_path[0] ? json_object_new_string(d->config_path) : NULL);
+	/* a subscriber may run elsewhere (latticed view): the full path */
+	char *full = d->config_path[0] ? realpath(d->config_path, NULL) : NULL;
+	json_object_object_add(o, "config", !d->config_path[0] ? NULL
+			       : json_object_new_string(full ? full : d->config_path));
+	free(full);
 	add_tuning_fields(o, &s->tuning);
 	struct json_object *outputs = json_object_new_array();
 	for (int k = 0; k < s->output_count; k++) {

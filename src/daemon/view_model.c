@@ -37,6 +37,7 @@ void view_model_down(struct view_model *m, const char *message)
 {
 	m->up = false;
 	m->note_count = 0;
+	m->drawn = false; /* a daemon started again may read a changed config: draw anew */
 	snprintf(m->message, sizeof m->message, "%s", message);
 }
 
