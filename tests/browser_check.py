@@ -11,7 +11,8 @@ to a raw-backend daemon.
      and of the daemon gone, into the artefact directory.
   4. Figures (printed, never pass/fail): note-on written to the FIFO to the
      tone lit in the page, median and p99 over 200 notes; and the daemon's
-     MIDI latency (bench/raw_latency.c) with no page and with 10 pages open.
+     MIDI latency (bench/raw_latency.c) with nothing attached, with a bare
+     subscriber, with a view and 10 event streams, with 10 pages open.
 
 Sources of the facts used:
   - MIDI 1.0: 9n note-on, 8n note-off.
@@ -25,10 +26,12 @@ Usage: browser_check.py LATTICED RAW_LATENCY ARTEFACT_DIR
 import json
 import os
 import signal
+import socket
 import statistics
 import subprocess
 import sys
 import tempfile
+import threading
 import time
 
 sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "attack"))
@@ -183,65 +186,78 @@ def measure_page_latency(drv, d, tab, notes=200):
     return med, p99
 
 
-def raw_latency(raw, binary, clients=0, drv=None, tmp=None, streams=False):
-    """bench/raw_latency's figures, with `clients` pages of a view on its
-    daemon: Chromium tabs, or (streams) bare event streams read here."""
+def open_tabs(drv, port, count):
+    """count more tabs of the page; a browser opens at most 6 event streams
+    per host name, so half use 127.0.0.1 and half localhost."""
+    first = drv.current_window_handle
+    handles = []
+    for i in range(count):
+        drv.switch_to.new_window("tab")
+        drv.get("http://%s:%d/" % ("127.0.0.1" if i % 2 == 0 else "localhost", port))
+        handles.append(drv.current_window_handle)
+    live = 0
+    for h in handles:
+        drv.switch_to.window(h)
+        live += wait_page(drv, lambda p: p["link"] == "live" and p["tones"] > 0)["link"] == "live"
+    drv.switch_to.window(first)
+    check(live == count, "%d pages follow the benchmark's daemon" % live)
+    return handles
+
+
+def close_tabs(drv, handles):
+    first = drv.window_handles[0]
+    for h in handles:
+        drv.switch_to.window(h)
+        drv.close()
+    drv.switch_to.window(first)
+
+
+def raw_latency(raw, binary, kind, drv=None, tmp=None):
+    """bench/raw_latency's figures with, on its daemon: nothing ("none"), a
+    subscriber of our own that only reads ("subscriber"), a view with 10
+    event streams read here ("streams") or with 10 pages in Chromium ("pages")."""
     env = dict(os.environ)
-    if clients:
+    if kind != "none":
         env["RAW_LATENCY_WAIT"] = "1"
     proc = subprocess.Popen([raw, binary, "2000"], stdin=subprocess.PIPE, stdout=subprocess.PIPE,
                             text=True, env=env)
-    v = None
-    handles = []
-    if clients:
+    view, readers, tabs, sub = None, [], [], None
+    if kind != "none":
         sock = proc.stdout.readline().split("control socket ", 1)[1].strip()
-        v = View(binary, sock, tmp, name="view-bench")
-        v.start()
-        v.wait_state(lambda s: s["daemon"] == "up")
-        if streams:
-            readers = [EventStream(v.port) for _ in range(clients)]
-            end = time.time() + 10
-            while time.time() < end and not all(r.messages for r in readers):
-                time.sleep(0.05)
-            check(all(r.messages for r in readers), "%d event streams follow the benchmark's daemon" % clients)
-            proc.stdin.write("go\n")
-            proc.stdin.flush()
-            out, _ = proc.communicate(timeout=300)
-            for r in readers:
-                r.close()
-            v.stop()
-            line = [ln.strip() for ln in out.splitlines() if "median" in ln]
-            print("FIGURE MIDI latency through the daemon, %d event streams open (no browser): %s"
-                  % (clients, line[0] if line else out))
-            return line[0] if line else ""
-        first = drv.current_window_handle
-        for i in range(clients):
-            # a browser opens at most 6 streams per host: half on each name
-            host = "127.0.0.1" if i % 2 == 0 else "localhost"
-            drv.switch_to.new_window("tab")
-            drv.get("http://%s:%d/" % (host, v.port))
-            handles.append(drv.current_window_handle)
-        for h in handles:
-            drv.switch_to.window(h)
-            wait_page(drv, lambda p: p["link"] == "live" and p["tones"] > 0)
-        live = 0
-        for h in handles:
-            drv.switch_to.window(h)
-            live += page(drv)["link"] == "live"
-        drv.switch_to.window(first)
-        check(live == clients, "%d pages follow the benchmark's daemon" % live)
+        if kind == "subscriber":
+            sub = socket.socket(socket.AF_UNIX, socket.SOCK_STREAM)
+            sub.connect(sock)
+            sub.sendall(b"subscribe\n")
+            threading.Thread(target=lambda: [None for _ in iter(lambda: sub.recv(65536), b"")],
+                             daemon=True).start()
+            time.sleep(0.3)
+        else:
+            view = View(binary, sock, tmp, name="view-bench")
+            view.start()
+            view.wait_state(lambda s: s["daemon"] == "up")
+            if kind == "streams":
+                readers = [EventStream(view.port) for _ in range(10)]
+                end = time.time() + 10
+                while time.time() < end and not all(r.messages for r in readers):
+                    time.sleep(0.05)
+                check(all(r.messages for r in readers), "10 event streams follow the benchmark's daemon")
+            else:
+                tabs = open_tabs(drv, view.port, 10)
         proc.stdin.write("go\n")
         proc.stdin.flush()
     out, _ = proc.communicate(timeout=300)
     line = [ln.strip() for ln in out.splitlines() if "median" in ln]
-    print("FIGURE MIDI latency through the daemon, %s: %s" % ("%d pages open" % clients if clients else "no page", line[0] if line else out))
-    for h in handles:
-        drv.switch_to.window(h)
-        drv.close()
-    if handles:
-        drv.switch_to.window(first)
-    if v:
-        v.stop()
+    what = {"none": "nothing attached", "subscriber": "a bare subscriber (no view)",
+            "streams": "a view with 10 event streams (no browser)", "pages": "a view with 10 pages in Chromium"}[kind]
+    print("FIGURE MIDI latency through the daemon, %s: %s" % (what, line[0] if line else out))
+    for r in readers:
+        r.close()
+    if sub:
+        sub.close()
+    if tabs:
+        close_tabs(drv, tabs)
+    if view:
+        view.stop()
     return line[0] if line else ""
 
 
@@ -278,9 +294,8 @@ def main():
             v.stop()
             # twice each, interleaved: the machine's load changes meanwhile
             for _ in range(2):
-                raw_latency(raw, binary)
-                raw_latency(raw, binary, clients=10, drv=drv, tmp=tmp)
-                raw_latency(raw, binary, clients=10, tmp=tmp, streams=True)
+                for kind in ("none", "subscriber", "streams", "pages"):
+                    raw_latency(raw, binary, kind, drv=drv, tmp=tmp)
         finally:
             drv.quit()
             if d.alive():

@@ -279,6 +279,9 @@ static void main_loop(struct daemon *d)
 		int control_ms = control_server_timeout_ms(&d->control, monotonic_ms());
 		if (control_ms >= 0 && control_ms < timeout_ms)
 			timeout_ms = control_ms;
+		int events_ms = subscription_timeout_ms(d, monotonic_ms());
+		if (events_ms >= 0 && events_ms < timeout_ms)
+			timeout_ms = events_ms;
 		if (d->panic_pending)
 			timeout_ms = 1; /* the request queue was full: try again soon */
 		struct timespec timeout = {timeout_ms / 1000, (long)(timeout_ms % 1000) * 1000000L};

@@ -11,6 +11,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "clock.h"
 #include "config.h"
 #include "daemon_private.h"
 
@@ -254,8 +255,17 @@ void subscription_service(struct daemon *d)
 	if (!s->active) {
 		while (event_ring_take(&s->ring, &ev))
 			; /* posted before it went off */
+		s->waiting_since_ms = 0;
 		return;
 	}
+	size_t waiting = spsc_queue_count(&s->ring.queue);
+	int64_t now = monotonic_ms();
+	if (waiting && !s->waiting_since_ms)
+		s->waiting_since_ms = now;
+	if (waiting && now - s->waiting_since_ms < SUBSCRIPTION_DELAY_MS &&
+	    waiting < EVENT_RING_SLOTS / 2)
+		return; /* not yet: the note is on its way out now (subscription.h) */
+	s->waiting_since_ms = 0;
 	/* a flood says itself more briefly as one fresh state */
 	bool coalesce = s->known && spsc_queue_count(&s->ring.queue) > SUBSCRIPTION_LINES_MAX;
 	s->stated = false;
@@ -267,6 +277,15 @@ void subscription_service(struct daemon *d)
 	/* a sync the input thread owes comes sooner if it is woken now the ring is empty */
 	if (!s->known || atomic_load_explicit(&s->ring.lost, memory_order_relaxed) > s->lost_seen)
 		wake_fd_signal(d->in->wake_fd);
+}
+
+int subscription_timeout_ms(const struct daemon *d, int64_t now_ms)
+{
+	const struct subscription *s = d->subs;
+	if (!s || !s->waiting_since_ms)
+		return -1;
+	int64_t left = s->waiting_since_ms + SUBSCRIPTION_DELAY_MS - now_ms;
+	return left > 0 ? (int)left : 0;
 }
 
 void subscription_shutdown(struct daemon *d)

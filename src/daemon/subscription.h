@@ -14,7 +14,14 @@
  * a fresh state (with how many events were lost); so does everyone when
  * more than SUBSCRIPTION_LINES_MAX events wait at once, which says the same
  * in fewer bytes.  A subscriber never holds anything up: the control
- * server drops one that lets its output pile up.  The protocol is in
+ * server drops one that lets its output pile up.
+ *
+ * The main thread leaves events in the ring for SUBSCRIPTION_DELAY_MS
+ * after the first of them arrives: the lines, the subscribers' work (a
+ * view drawing, browsers painting) and a synth on the same machine would
+ * otherwise all want the CPU at the moment a note goes out; a few
+ * milliseconds later the note is long at the synth, and a chord's notes
+ * go out together.  The protocol is in
  * latticed(8), "Subscribing".
  */
 #ifndef LATTICED_SUBSCRIPTION_H
@@ -28,6 +35,7 @@
 #include "midi_io.h"
 
 #define SUBSCRIPTION_LINES_MAX 256   /* events per main-loop turn sent one by one */
+#define SUBSCRIPTION_DELAY_MS 5      /* events wait this long before the main thread takes them */
 
 struct subscription_note {
 	uint32_t id;                 /* the engine's start serial: unique on its output */
@@ -55,6 +63,7 @@ struct subscription {
 	bool known;                  /* the picture is whole: a sync came since it went on */
 	bool in_sync;                /* between a sync's begin and end */
 	bool stated;                 /* a state went out this turn */
+	int64_t waiting_since_ms;    /* events wait in the ring since (0: none) */
 	uint64_t lost_seen;          /* the ring's losses covered by the last sync */
 	int output_count;
 	struct subscription_output outputs[MIDI_IO_MAX_OUTPUTS];
@@ -74,6 +83,9 @@ void subscription_request(struct daemon *d, int id);
 /* Every main-loop turn: the ring's events to the subscribers; the ring off
  * once nobody subscribes. */
 void subscription_service(struct daemon *d);
+
+/* Milliseconds until events waiting in the ring are due, or -1 (main's poll timeout). */
+int subscription_timeout_ms(const struct daemon *d, int64_t now_ms);
 
 /* Tells every subscriber the daemon stops, and writes it out now. */
 void subscription_shutdown(struct daemon *d);

@@ -1,7 +1,8 @@
 // latticed view: the page's script.  It follows /events (Server-Sent
 // Events, one JSON page state per message, see view_model.h), shows the
 // drawing of /lattice.svg inline with the sounding tones and the held
-// chord lit, and says plainly when latticed or this view is gone.  With
+// chord lit, and says plainly when latticed or this view is gone.  A
+// hidden tab keeps only the latest state until it is seen again.  With
 // control on, its buttons POST to /control with the token from the
 // address (#token=...) or typed in; nothing else leaves the page.
 "use strict";
@@ -227,8 +228,13 @@
 
   function follow() {
     const events = new EventSource("/events");
+    // a hidden tab only keeps the latest state and shows it when seen again:
+    // ten tabs left open cost nothing while the notes fly
     events.onmessage = (e) => {
-      try { apply(JSON.parse(e.data)); } catch (err) { /* a broken message: the next one says it all */ }
+      let state;
+      try { state = JSON.parse(e.data); } catch (err) { return; /* the next one says it all */ }
+      if (document.visibilityState === "hidden") hidden = state;
+      else apply(state);
     };
     events.onerror = () => {
       // a refused stream (too many pages open) is not retried by the browser
@@ -241,6 +247,10 @@
     };
     events.onopen = () => { $("gone-title").textContent = "latticed is not running"; };
   }
+  let hidden = null;
+  document.addEventListener("visibilitychange", () => {
+    if (document.visibilityState !== "hidden" && hidden) { const s = hidden; hidden = null; apply(s); }
+  });
   window.addEventListener("resize", () => fitText($("chord-name")));
   follow();
 })();
