@@ -20,9 +20,14 @@ Sources of the facts used:
     (our rule: the page agrees with the table).
   - The W3C WebDriver protocol through Selenium; the DevTools
     Emulation.setDeviceMetricsOverride command for phone screen sizes.
+  - Firefox (Debian's firefox-esr) is driven through its own Marionette
+    protocol (length-prefixed JSON, WebDriver commands; Mozilla's
+    Marionette documentation), since Debian 12 ships no geckodriver: the
+    same chord, release and daemon-gone checks, and a screenshot.
 
 Usage: browser_check.py LATTICED RAW_LATENCY ARTEFACT_DIR
 """
+import base64
 import json
 import os
 import signal
@@ -37,7 +42,7 @@ import time
 sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "attack"))
 import daemon_harness as harness  # noqa: E402
 from daemon_harness import check  # noqa: E402
-from view_harness import EventStream, View  # noqa: E402
+from view_harness import EventStream, View, free_port  # noqa: E402
 
 from selenium import webdriver  # noqa: E402
 from selenium.webdriver.chrome.service import Service  # noqa: E402
@@ -62,9 +67,7 @@ def phone(drv, name):
                         {"width": w, "height": h, "deviceScaleFactor": 2, "mobile": True})
 
 
-def page(drv):
-    """What the page shows now, read from its DOM."""
-    return drv.execute_script("""
+PAGE_JS = """
         const q = (s) => Array.from(document.querySelectorAll(s));
         return {
           link: document.getElementById('link-text').textContent,
@@ -77,7 +80,12 @@ def page(drv):
           tones: q('#lattice g.tone').length,
           lit: q('#lattice g.tone.lit').map((g) => Number(g.dataset.tone)).sort((a, b) => a - b),
           faces: q('#lattice polygon.chord.lit').map((p) => Number(p.dataset.chord)),
-        };""")
+        };"""
+
+
+def page(drv):
+    """What the page shows now, read from its DOM."""
+    return drv.execute_script(PAGE_JS)
 
 
 def wait_page(drv, pred, timeout=10.0):
@@ -261,6 +269,94 @@ def raw_latency(raw, binary, kind, drv=None, tmp=None):
     return line[0] if line else ""
 
 
+class Marionette:
+    """Firefox's remote protocol: "LENGTH:JSON" messages; a command is
+    [0, id, name, parameters], its answer [1, id, error, result]."""
+
+    def __init__(self, port, timeout=60):
+        end = time.time() + timeout
+        while True:
+            try:
+                self.sock = socket.create_connection(("127.0.0.1", port), timeout=30)
+                break
+            except OSError:
+                if time.time() > end:
+                    raise
+                time.sleep(0.2)
+        self.buf, self.id = b"", 0
+        self.read()  # the greeting
+
+    def read(self):
+        while b":" not in self.buf:
+            self.buf += self.sock.recv(65536)
+        n, rest = self.buf.split(b":", 1)
+        while len(rest) < int(n):
+            rest += self.sock.recv(65536)
+        self.buf = rest[int(n):]
+        return json.loads(rest[:int(n)])
+
+    def __call__(self, name, params=None):
+        self.id += 1
+        data = json.dumps([0, self.id, name, params or {}]).encode()
+        self.sock.sendall(str(len(data)).encode() + b":" + data)
+        answer = self.read()
+        if answer[2]:
+            raise RuntimeError("%s: %s" % (name, answer[2]))
+        return answer[3]
+
+    def page(self):
+        return self("WebDriver:ExecuteScript", {"script": PAGE_JS, "args": []})["value"]
+
+    def wait_page(self, pred, timeout=10.0):
+        end = time.time() + timeout
+        p = self.page()
+        while time.time() < end and not pred(p):
+            time.sleep(0.05)
+            p = self.page()
+        return p
+
+
+def check_firefox(binary, d, tab, tmp):
+    v = View(binary, d.socket, tmp, name="view-firefox")
+    v.start()
+    profile = os.path.join(tmp, "firefox")
+    os.makedirs(profile)
+    port = free_port()
+    with open(os.path.join(profile, "user.js"), "w") as f:
+        f.write('user_pref("marionette.port", %d);\n' % port)
+    ff = subprocess.Popen(["/usr/bin/firefox-esr", "--headless", "--marionette", "--no-remote",
+                           "--profile", profile], stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    try:
+        m = Marionette(port)
+        m("WebDriver:NewSession", {"capabilities": {}})
+        m("WebDriver:SetWindowRect", {"width": PHONES["portrait"][0], "height": PHONES["portrait"][1]})
+        m("WebDriver:Navigate", {"url": "http://127.0.0.1:%d/" % v.port})
+        p = m.wait_page(lambda p: p["link"] == "live" and p["tones"] == len(tab["tones"]))
+        check(p["link"] == "live" and p["tones"] == len(tab["tones"]), "Firefox: the page is live and draws the lattice")
+        index, chord = next((i, c) for i, c in enumerate(tab["chords"]) if c["kind"] == "harmonic")
+        keys = keys_for(tab, chord["tones"])
+        play(d, keys)
+        p = m.wait_page(lambda p: p["lit"] == sorted(chord["tones"]) and p["faces"] == [index])
+        check(p["lit"] == sorted(chord["tones"]) and p["faces"] == [index] and
+              p["chord"] == ":".join(str(x) for x in chord["proportion"]),
+              "Firefox: the chord lights exactly its tones and face, named %s" % p["chord"])
+        shot = m("WebDriver:TakeScreenshot", {"full": False})["value"]
+        with open(os.path.join(ARTEFACTS, "view-firefox.png"), "wb") as f:
+            f.write(base64.b64decode(shot))
+        play(d, keys, on=False)
+        p = m.wait_page(lambda p: not p["lit"] and not p["faces"])
+        check(not p["lit"] and not p["faces"], "Firefox: released, it goes dark")
+        v.stop()
+        p = m.wait_page(lambda p: p["link"] == "no connection to latticed view")
+        check(p["link"] == "no connection to latticed view" and p["gone"],
+              "Firefox: the view stopped, the page says it lost the view")
+    finally:
+        ff.kill()
+        ff.wait()
+        if v.alive():
+            v.stop()
+
+
 def main():
     global ARTEFACTS
     if len(sys.argv) < 4:
@@ -286,6 +382,7 @@ def main():
             errors = [e for e in drv.get_log("browser") if e["level"] == "SEVERE"]
             check(not errors, "the page loads with no console error (%s)" % errors[:1])
             check_chord(drv, d, tab, "harmonic", shots=["portrait", "landscape"])
+            check_firefox(binary, d, tab, tmp)
             phone(drv, "portrait")
             check_chord(drv, d, tab, "subharmonic")
             check_gone_and_back(drv, d, v)
