@@ -15,11 +15,17 @@
   let last = null;         // the last page state
   let token = sessionStorage.getItem("latticed-token") || "";
 
-  if (location.hash.startsWith("#token=")) {
+  // the token printed by latticed view comes in the address; keep it for
+  // this tab and take it out of the address bar (and out of its history)
+  function takeToken() {
+    if (!location.hash.startsWith("#token=")) return;
     token = decodeURIComponent(location.hash.slice(7));
     sessionStorage.setItem("latticed-token", token);
     history.replaceState(null, "", location.pathname);
+    if (last) showControls(last);
   }
+  takeToken();
+  window.addEventListener("hashchange", takeToken);
 
   function setLink(kind, text) {
     const link = $("link");
