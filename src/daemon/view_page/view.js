@@ -77,7 +77,7 @@
       box.b - box.y + 2 * pad].join(" "));
     svg.removeAttribute("width");
     svg.removeAttribute("height");
-    svg.setAttribute("preserveAspectRatio", "xMidYMid meet");
+    svg.setAttribute("preserveAspectRatio", "xMidYMin meet"); // right under the chord
   }
 
   function showDrawing(text, version) {
