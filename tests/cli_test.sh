@@ -60,5 +60,36 @@ check "missing config is named" grep -q "^$tmp/none.conf: cannot open: No such f
 check "json exits 0" status_is 0 "$bin" table --json --config "$src/config/latticed.conf"
 check "json starts with {" test "$(head -c1 "$tmp/out")" = "{"
 
+# --preset takes a name or a number, as `latticed preset` does; a wrong one
+# is named with the presets there are (our rule), the same for draw.
+presets="$src/tests/golden/configs/presets-bend.conf"
+check "table --preset 1" status_is 0 "$bin" table --config "$presets" --preset 1
+check "--preset 1 is the second preset" grep -q '^presets  main \[dekany\] tritave' "$tmp/out"
+check "table --preset by name" status_is 0 "$bin" table --config "$presets" --preset tritave
+for cmd in table draw; do
+	check "$cmd --preset 7 fails" status_is 1 "$bin" $cmd --config "$presets" --preset 7
+	check "$cmd --preset 7 lists the presets" grep -q \
+		"^latticed $cmd: $presets has no preset '7', expected a number from 0 to 2 or a name: 0=main, 1=dekany, 2=tritave\$" "$tmp/err"
+done
+# --root as `latticed root`: a number (tone n-1), a label or home
+check "table --root 3" status_is 0 "$bin" table --config "$src/config/latticed.conf" --root 3
+check "--root 3 is said" grep -q '^root     3: tone 2 (3.7) is 1/1, every pitch times 21/16' "$tmp/out"
+check "table --root label" status_is 0 "$bin" table --config "$src/config/latticed.conf" --root 3.7 --keys
+check "--root label as 3" grep -q '^preset   main, root 3.7 (every pitch times 21/16)' "$tmp/out"
+check "table --root home" status_is 0 "$bin" table --config "$src/config/latticed.conf" --root home --json
+check "--root 9 fails" status_is 1 "$bin" table --config "$src/config/latticed.conf" --root 9
+check "--root 9 says what is expected" grep -q \
+	"^latticed table: preset main has no root '9', expected home, a number from 0 to 6" "$tmp/err"
+# one form at a time; the --syx options only with --syx
+check "--json --keys is a usage error" status_is 2 "$bin" table --json --keys
+check "--program without --syx" status_is 2 "$bin" table --program 3
+check "--device 127 is refused" status_is 2 "$bin" table --syx "$tmp/t.syx" --device 127
+check "no file for a bad --syx" test ! -e "$tmp/t.syx"
+check "--syx into a missing folder" status_is 1 "$bin" table --syx "$tmp/none/t.syx"
+check "--syx error names the file" grep -q "^latticed table: $tmp/none/t.syx: " "$tmp/err"
+# without --config: the system config, or the defaults with the path looked at
+check "table without a config" status_is 0 "$bin" table
+check "the config read is named" grep -Eq '^config   (/.*latticed\.conf|\(built-in defaults: there is no /.*/latticed/latticed\.conf\))$' "$tmp/out"
+
 [ "$fails" -eq 0 ] && echo "cli_test: all checks passed"
 [ "$fails" -eq 0 ]

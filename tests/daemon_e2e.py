@@ -24,6 +24,7 @@ Sources of the facts used:
 import json
 import math
 import os
+import re
 import signal
 import subprocess
 import sys
@@ -264,6 +265,7 @@ CONFIG = """\
 [daemon]
 backend = raw
 control_socket = {dir}/run/control
+state_file = {dir}/state.json
 realtime_priority = none
 lock_memory = no
 
@@ -456,6 +458,22 @@ def main():
         want = expected_pitch(58, shift=fold_half_period(tones[3]))
         got = synth.notes_on[-1][2]
         check(abs(got - want) < 0.0005, "root 4: key 58 at %.4f, wanted %.4f" % (got, want))
+        # status says what the held note sounds at, the root included: 5/4
+        # (key 58) times 3/4 = 15/16 of 220 Hz (exact fractions), the preset
+        # and root it began under, the key's name (key 60 = C4: common practice)
+        sounds = tones[1] * fold_half_period(tones[3])
+        hz = 220 * sounds
+        st = status()
+        n = {x["in_key"]: x for x in st["outputs"][0]["notes"]}.get(58, {})
+        check(n.get("preset") == "main" and n.get("root") == "1.3" and
+              n.get("sounds", {}).get("ratio") == "%d/%d" % (sounds.numerator, sounds.denominator) and
+              abs(n.get("sounds", {}).get("hz", 0) - float(hz)) < 0.0005,
+              "status --json: key 58 after root 4 sounds %s = %.3f Hz (%s)" % (sounds, float(hz), n))
+        rc, text, e = client("status")
+        row = [line for line in text.splitlines() if re.match(r"^ +0 +1 +58 A#3 ", line)]
+        check(rc == 0 and len(row) >= 1 and row[0].split()[4:9] ==
+              ["main", "1.3", "1.5", "%d/%d" % (sounds.numerator, sounds.denominator), "%.3f" % float(hz)],
+              "status: key 58 after root 4 reads main 1.3 1.5 %s %.3f (%s)" % (sounds, float(hz), row))
         rc, o, e = client("root", "99")
         check(rc == 1 and "out of range" in e, "root 99 refused (%s)" % e.strip())
         rc, o, e = client("root", "0")

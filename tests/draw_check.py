@@ -98,8 +98,11 @@ def expected_tones(conf):
             period = Fraction(value)
         elif key == "unison" and value != "none":
             unison = value
-    u = math.prod(Fraction(s) for s in unison.split(".")) if unison else Fraction(1)
-    return {".".join(c): reduce_into(math.prod(Fraction(s) for s in c) / u, period)
+    u = math.prod(Fraction(s.strip("()")) for s in unison.split(".")) if unison else Fraction(1)
+    # labels join the seeds with '.', a ratio seed in parentheses (our rule)
+    def label(c):
+        return ".".join(f"({s})" if "/" in s else s for s in c)
+    return {label(c): reduce_into(math.prod(Fraction(s) for s in c) / u, period)
             for c in itertools.combinations(seeds, k)}, k, len(seeds)
 
 

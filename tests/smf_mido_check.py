@@ -140,9 +140,9 @@ def file_random(path, seed, kind):
 
 
 def file_running_status_across_meta(path):
-    """Hand-made: running status continues after a meta event.  Files like
-    this exist (midi.org forum report "Running status observation"); mido and
-    we both read them leniently.  (Across SysEx mido does not: it takes the
+    """Hand-made: running status continues after a meta event.  The SMF text
+    [SMF] cancels it there, but some writers keep it (common practice); mido
+    and we both read such files leniently.  (Across SysEx mido does not: it takes the
     data byte for another SysEx, so that case is tested in C only.)"""
     body = (b"\x00\x90\x3c\x64" + b"\x00\xff\x01\x02hi" + b"\x10\x3e\x64"
             + b"\x00\xff\x06\x01m" + b"\x10\x40\x64" + b"\x81\x00\x3c\x00"

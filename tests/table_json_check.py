@@ -13,8 +13,12 @@ recomputed here from the config's parameters with exact fractions
     (ISO 16 A4 = 440 Hz = key 69, MTS numbering);
   - bend = 8192 + round(c / (100 R) * 8192), clamped (MIDI 1.0 14-bit bend,
     centre 8192);
-  - MTS word: key at or below, 14-bit fraction big-endian (MMA MIDI Tuning).
-Usage: table_json_check.py LATTICED_BINARY CONFIG
+  - MTS word: key at or below, 14-bit fraction big-endian (MMA MIDI Tuning);
+  - with ROOT (`--root ROOT`, as `latticed root` re-roots a running daemon):
+    every sounding key's pitch times the root tone's ratio, over the period
+    when that ratio lies above half of it (our rule); keys keep their tones,
+    and a key silent at home stays silent (our rule).
+Usage: table_json_check.py LATTICED_BINARY CONFIG [ROOT]
 """
 import itertools
 import json
@@ -34,7 +38,8 @@ def reduce_into(r, period):
 
 def main():
     binary, config = sys.argv[1], sys.argv[2]
-    out = subprocess.run([binary, "table", "--config", config, "--json"],
+    root_args = ["--root", sys.argv[3]] if len(sys.argv) > 3 else []
+    out = subprocess.run([binary, "table", "--config", config, "--json", *root_args],
                          check=True, capture_output=True, text=True).stdout
     doc = json.loads(out)
 
@@ -43,8 +48,10 @@ def main():
     period = Fraction(doc["lattice"]["period"])
     unison = Fraction(1)
     if doc["lattice"]["unison"] is not None:
-        # the named product (seeds joined by '.') becomes 1/1
-        unison = math.prod(Fraction(s) for s in doc["lattice"]["unison"].split("."))
+        # the named product (seeds joined by '.', a ratio seed in
+        # parentheses: our label syntax) becomes 1/1
+        unison = math.prod(Fraction(s.strip("()"))
+                           for s in doc["lattice"]["unison"].split("."))
     products = sorted(set(reduce_into(math.prod(c) / unison, period)
                           for c in itertools.combinations(seeds, k)))
     tones = doc["tones"]
@@ -85,6 +92,14 @@ def main():
                 root_key = int(value)
             elif key == "root_hz":
                 root_hz = Fraction(value)
+    shift = Fraction(1)
+    slot = doc["root"]["slot"]
+    if slot > 0:
+        shift = products[slot - 1]
+        if shift * shift > period:
+            shift /= period
+    assert Fraction(doc["root"]["ratio"]) == shift, doc["root"]
+    in_midi = lambda note: 0 <= note <= 127 + 16382 / 16384  # MTS: 00 00 00 .. 7F 7F 7E
     bend_range = doc["outputs"][0]["bend_range"]
     n = len(products)
     seen = set()
@@ -94,7 +109,9 @@ def main():
         i = key - root_key
         tone, per = i % n, i // n
         assert entry["tone"] == tone and entry["period"] == per, entry
-        hz = float(root_hz * products[tone] * period ** per)
+        home = float(root_hz * products[tone] * period ** per)
+        assert in_midi(69 + 12 * math.log2(home / 440)), entry
+        hz = float(root_hz * products[tone] * period ** per * shift)
         assert abs(entry["hz"] - hz) < 1e-6 * hz, (entry, hz)
         note = 69 + 12 * math.log2(hz / 440)
         out = min(127, round(note))
@@ -108,7 +125,7 @@ def main():
         if frac == 16384:
             whole, frac = whole + 1, 0
         assert entry["mts"] == [whole, frac >> 7, frac & 0x7F], entry
-        assert 0 <= note <= 127 + 16382 / 16384
+        assert in_midi(note)
     # every other key is silent or out of range, and the lists agree
     others = set(doc["silent_keys"]) | set(doc["out_of_range_keys"])
     assert seen | others == set(range(128)) and not (seen & others)
@@ -116,9 +133,10 @@ def main():
         i = key - root_key
         hz = float(root_hz * products[i % n] * period ** (i // n))
         note = 69 + 12 * math.log2(hz / 440)
-        assert note < 0 or note > 127 + 16382 / 16384, key
-    print(f"{config}: {len(tones)} tones, {len(doc['chords'])} chords, "
-          f"{len(doc['keys'])} keys checked")
+        moved = 69 + 12 * math.log2(hz * float(shift) / 440)
+        assert not in_midi(note) or not in_midi(moved), key
+    print(f"{config} root {doc['root']['label']}: {len(tones)} tones, "
+          f"{len(doc['chords'])} chords, {len(doc['keys'])} keys checked")
 
 
 if __name__ == "__main__":

@@ -1,5 +1,5 @@
 /*
- * Heap allocations on the event path: none.
+ * Heap allocations on the event path: none (our rule).
  *
  * engine.h, midi_parser.h and midi_encoder.h promise no allocation after
  * set-up.  This binary defines malloc, calloc, realloc, free and the

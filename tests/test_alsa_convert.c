@@ -114,7 +114,7 @@ static void test_bend_signedness(void **state)
 	EXPECT(ctrl(SND_SEQ_EVENT_PITCHBEND, 9, 0, 1), 0xE9, 0x01, 0x40);
 	EXPECT(ctrl(SND_SEQ_EVENT_PITCHBEND, 9, 0, -1), 0xE9, 0x7F, 0x3F);
 	/* Out of range (only a faulty client sends it): clamped, where
-	 * alsa-lib wraps (decision: a wrapped bend jumps by two octaves). */
+	 * alsa-lib wraps (our rule: a wrapped bend jumps by two octaves). */
 	EXPECT(ctrl(SND_SEQ_EVENT_PITCHBEND, 0, 0, 8192), 0xE0, 0x7F, 0x7F);
 	EXPECT(ctrl(SND_SEQ_EVENT_PITCHBEND, 0, 0, -9000), 0xE0, 0x00, 0x00);
 	for (int v = -8192; v <= 8191; v += 127) {

@@ -181,6 +181,75 @@ static void merge_warning(void **state)
 			       "t.conf:2: warning: products 1.27 and 3.9 are the same tone 27/16; merged into one"));
 }
 
+/* Equal seeds say why their products merge, once, at the seeds line (our
+ * rule); the merges they explain are not listed one by one. */
+static void equal_seeds_are_explained(void **state)
+{
+	(void)state;
+	assert_true(parse("[lattice]\nseeds = 1 3 3 7\n"));
+	assert_true(tuning_build(&cfg, 0, &tuning, &report));
+	assert_int_equal(report.warning_count, 1);
+	assert_non_null(strstr(report.text, "t.conf:2: warning: seed 3 is given twice (seeds 2 and 3): "
+				"every product with one is a product with the other, so 2 products merge "
+				"and the set has 4 tones instead of 6"));
+	/* a seed equal to the period is the same tone as a seed 1 */
+	assert_true(parse("[lattice]\nseeds = 1 2 3 5\n"));
+	assert_true(tuning_build(&cfg, 0, &tuning, &report));
+	assert_int_equal(report.warning_count, 1);
+	assert_non_null(strstr(report.text, "t.conf:2: warning: seeds 1 and 2 are one tone once reduced "
+				"into the period 2/1 (a seed equal to the period is 1/1): "));
+	assert_non_null(strstr(report.text, "so 2 products merge and the set has 4 tones instead of 6"));
+	/* and seeds a period apart */
+	assert_true(parse("[lattice]\nseeds = 3 5 6 7\nperiod = 2\n"));
+	assert_true(tuning_build(&cfg, 0, &tuning, &report));
+	assert_int_equal(report.warning_count, 1);
+	assert_non_null(strstr(report.text, "seeds 3 and 6 are one tone once reduced into the period 2/1 (both 3/2)"));
+	/* a merge of its own is still listed beside them */
+	assert_true(parse("[lattice]\nseeds = 1 3 9 27 27\n"));
+	assert_true(tuning_build(&cfg, 0, &tuning, &report));
+	assert_non_null(strstr(report.text, "seed 27 is given twice (seeds 4 and 5)"));
+	assert_non_null(strstr(report.text, "warning: products 1.27 and 3.9 are the same tone 27/16"));
+}
+
+/* A unison written as a ratio names the tone of that ratio (our rule). */
+static void unison_given_as_a_ratio(void **state)
+{
+	(void)state;
+	assert_true(parse("[lattice]\nseeds = 1 3 5 7\n\nunison = 21/16\n"));
+	assert_false(tuning_build(&cfg, 0, &tuning, &report));
+	assert_int_equal(report.error_count, 1);
+	assert_non_null(strstr(report.text, "t.conf:4: unison is '21/16', a ratio, expected a tone named "
+				"by its seeds: 21/16 is the tone 3.7 (unison = 3.7)"));
+	/* reduced into the period first: 21/8 is the same tone */
+	assert_true(parse("[lattice]\nunison = 21/8\n"));
+	assert_false(tuning_build(&cfg, 0, &tuning, &report));
+	assert_non_null(strstr(report.text, "21/8 is the tone 3.7"));
+	assert_true(parse("[lattice]\nunison = 11/8\n"));
+	assert_false(tuning_build(&cfg, 0, &tuning, &report));
+	assert_non_null(strstr(report.text, "t.conf:2: unison is '11/8', a ratio that is no tone of the set, "
+				"expected a tone named by its seeds, e.g. 5.7"));
+	/* a ratio seed's tone by its label */
+	assert_true(parse("[lattice]\nseeds = 1 9/8 5 7\nunison = 1.(9/8)\n"));
+	assert_true(tuning_build(&cfg, 0, &tuning, &report));
+	assert_true(tuning.lattice.spec.has_unison);
+}
+
+/* A section given twice is an error at the second header (our rule), and
+ * [preset main] cannot reopen the main tuning. */
+static void sections_given_twice(void **state)
+{
+	(void)state;
+	expect_error("[preset a]\nchoose = 3\n[lattice]\nseeds = 1 3 5 7\n[preset a]\nroot_hz = 440\n",
+		     "t.conf:5: [preset a] is already on line 1, expected each preset once");
+	expect_error("[output x]\nmethod = mts\n[output x]\nmts_program = 3\n",
+		     "t.conf:3: [output x] is already on line 1, expected each output once");
+	expect_error("[preset main]\nseeds = 1 3 5 9\n",
+		     "t.conf:1: [preset main]: 'main' is the name of the main tuning");
+	/* one header per name is fine */
+	assert_true(parse("[preset a]\nchoose = 3\n[preset b]\nchoose = 1\n"));
+	assert_int_equal(cfg.preset_count, 3);
+}
+
 /* More messages than the report holds: whole lines only, and a last line
  * that counts the rest (found by tests/fuzz/fuzz_config: the 924-tone set
  * over the odd seeds 1..23 merges 270 products). */
@@ -273,6 +342,10 @@ static void input_output_control_keys(void **state)
 	assert_int_equal(zone->engine.bend_range, 48);
 	assert_int_equal(zone->engine.mpe_zone, MPE_ZONE_UPPER);
 	assert_int_equal(zone->engine.mpe_members, 7);
+	/* an mpe output's notes go to every member but 10 unless channels says
+	 * otherwise, so a drum track on 10 passes through (our rule) */
+	assert_int_equal(zone->engine.channels, 0xFDFF);
+	assert_int_equal(fs->engine.channels, 0xFDFE);
 	struct engine_spec spec;
 	config_engine_spec(&cfg, 0, &spec);
 	assert_int_equal(spec.output.method, RETUNE_MTS);
@@ -435,7 +508,9 @@ static void too_many_sections_said_once(void **state)
 	size_t used = 0;
 	for (int i = 0; i < 40; i++)
 		used += (size_t)snprintf(text + used, sizeof text - used, "[output o%d]\nmethod = mts\n", i);
-	used += (size_t)snprintf(text + used, sizeof text - used, "[output o3]\n[output o20]\n");
+	/* a refused name given again is not counted again (a kept one given
+	 * again is an error of its own: sections_given_twice) */
+	used += (size_t)snprintf(text + used, sizeof text - used, "[output o20]\n");
 	expect_error(text, "t.conf:17: 40 outputs, expected at most 8 [output NAME] sections (the 32 from here on are left out)\n");
 	used = 0;
 	for (int i = 0; i < 40; i++)
@@ -463,6 +538,9 @@ int main(void)
 		cmocka_unit_test(build_errors_name_the_line),
 		cmocka_unit_test(map_slots_by_label),
 		cmocka_unit_test(merge_warning),
+		cmocka_unit_test(equal_seeds_are_explained),
+		cmocka_unit_test(unison_given_as_a_ratio),
+		cmocka_unit_test(sections_given_twice),
 		cmocka_unit_test(long_report_keeps_whole_lines),
 		cmocka_unit_test(presets_inherit_the_main_tuning),
 		cmocka_unit_test(input_output_control_keys),

@@ -164,11 +164,14 @@ static void every_key_reads_its_default(void **state)
 }
 
 /* A text with key k set to value on line 3; [input] uses channel 5 so a
- * control channel or an MTS output stays valid. */
+ * control channel or an MTS output stays valid, and [control] keys have
+ * a control channel (16) to act on. */
 static bool parse_value(const struct config_key *k, const char *value)
 {
 	char text[512];
-	snprintf(text, sizeof text, "[%s]\n\n%s = %s\n%s", header_of(k), k->name, value,
+	bool control = strcmp(k->section, "control") == 0 && strcmp(k->name, "channel") != 0;
+	snprintf(text, sizeof text, "[%s]\n\n%s = %s\n%s%s", header_of(k), k->name, value,
+		 control ? "channel = 16\n" : "",
 		 strcmp(k->section, "input") ? "[input]\nchannels = 5\n" : "");
 	return parse(text);
 }

@@ -2,7 +2,8 @@
  * Tests of the bend method (src/core/engine_bend.c): the set-up RPN 0 on
  * every pool channel, the bend before its note, the free channel with the
  * same bend first and then the one released longest ago, sharing and
- * stealing by the polyphony policy.  Byte layouts: engine_test.h.
+ * stealing by the polyphony policy (our rules; the release order is common
+ * practice).  Byte layouts: engine_test.h.
  */
 #include "engine_test.h"
 

@@ -2,8 +2,8 @@
  * Tests of the mts method (src/core/engine_mts.c): the tuning program and
  * bank by RPN 3 and 4, a single-note change before a key's note-on only
  * when the synth does not hold the word, a sounding key never retuned,
- * one output channel per input channel, the bulk dump and its checksum
- * (MMA MIDI Tuning Standard layouts in engine_test.h and mts.h).
+ * one output channel per input channel (our rules), the bulk dump and its
+ * checksum (MIDI Tuning Standard [MTS] layouts in engine_test.h and mts.h).
  */
 #include "engine_test.h"
 

@@ -1,5 +1,6 @@
 /*
- * The engine's four promises on long seeded random performances, for
+ * The engine's four promises (our rules: engine.h, README) on long seeded
+ * random performances, for
  * every method (LATTICED_ENGINE_EVENTS sets the length, default 10^6
  * events; LATTICED_ENGINE_SEED shifts every scenario's seed, for longer
  * runs with fresh streams), judged by the independent synth model in
@@ -269,6 +270,28 @@ static void random_action(struct random_run *r, struct rng *g, int in_ch, int *m
 	} else if (action < 950 && spec->control.channel >= 0 && spec->control.root_cc == 20) {
 		r->root_slot = rng_below(g, lattices[r->preset].tone_count + 1);
 		harness_send(&h, (uint8_t)(0xB0 | spec->control.channel), 20, (uint8_t)r->root_slot);
+	} else if (action < 950 && spec->control.channel == ENGINE_CONTROL_PLAYING) {
+		/* momentary footswitches on the playing channel (press, release):
+		 * the next preset, the next root (both wrap), now and then the panic
+		 * (our rule, engine.h) */
+		int which = rng_below(g, 32);
+		uint8_t cc = which == 0 ? 82 : which < 12 ? 80 : 81;
+		harness_send(&h, (uint8_t)(0xB0 | in_ch), cc, 127);
+		harness_send(&h, (uint8_t)(0xB0 | in_ch), cc, 0);
+		if (cc == 80) {
+			r->preset = (r->preset + 1) % 2;
+			r->root_slot = 0;
+		} else if (cc == 81) {
+			r->root_slot = (r->root_slot + 1) % (lattices[r->preset].tone_count + 1);
+		} else {
+			memset(r->down, 0, sizeof r->down);
+			sync_owners(r);
+			if (model_sounding_count(&model) != 0)
+				fail_msg("%s: notes sound after the panic binding", name);
+		}
+		if (engine_preset(&h.engine) != r->preset || engine_root(&h.engine) != r->root_slot)
+			fail_msg("%s: a footswitch left preset %d root %d, expected %d and %d", name,
+				 engine_preset(&h.engine), engine_root(&h.engine), r->preset, r->root_slot);
 	} else if (action < 960) {
 		/* drums on channel 10 pass through: a hit and its release,
 		 * or (when 10 is not retuned) a hit held until its release,
@@ -392,6 +415,14 @@ static void randomized_promises(void **state)
 	s.control.program_selects_preset = true;
 	s.output.mpe_members = 4;
 	run_random("mpe, 4 members", s, 7, each);
+
+	s = default_spec(RETUNE_MPE);
+	s.control.channel = ENGINE_CONTROL_PLAYING;
+	s.control.wrap = true;
+	s.control.actions[ENGINE_ACTION_PRESET_NEXT] = (struct engine_binding){ENGINE_BINDING_CC, 80, false};
+	s.control.actions[ENGINE_ACTION_ROOT_NEXT] = (struct engine_binding){ENGINE_BINDING_CC, 81, false};
+	s.control.actions[ENGINE_ACTION_PANIC] = (struct engine_binding){ENGINE_BINDING_CC, 82, false};
+	run_random("mpe, footswitches played", s, 10, each / 2);
 
 	s = default_spec(RETUNE_BEND);
 	s.input.channels = 0x0003; /* two players share a 3-channel pool */

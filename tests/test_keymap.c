@@ -155,25 +155,63 @@ static void nearest_layout(void **state)
 	assert_int_equal(map.keys[58].state, KEY_SILENT);
 }
 
-static void nearest_collision_moves_up(void **state)
+/* Two tones nearest one key share the free keys beside it (our rule): the
+ * free key below is used when that keeps both nearer their pitches, and
+ * the keys stay in pitch order.  Pitches from f = 440 * 2^((n-69)/12). */
+static void nearest_collision_takes_the_nearer_free_key(void **state)
 {
 	(void)state;
 	/* 1 3 5 7 9, 2 of 5 (dekany) on 1/1 = C4: 35/32 (note 61.55) and 9/8
-	 * (62.04) both round to key 62; the higher, 9/8, moves to 63 */
+	 * (62.04) both round to key 62; key 61 is free.  35/32 moves down to
+	 * 61 (0.55 away) and 9/8 keeps 62 (0.04): 0.59 in all, where 9/8 on 63
+	 * would leave it 0.96 away and key 61 silent. */
 	const char *const seeds[] = {"1", "3", "5", "7", "9"};
 	build_lattice(seeds, 5, 2);
 	struct keymap_spec s = spec_of(KEY_LAYOUT_NEAREST, 0, 440.0 * pow(2.0, -9.0 / 12.0));
 	build_map(&s);
 	assert_int_equal(lat.tones[0].ratio.num, 35);
 	assert_int_equal(lat.tones[1].ratio.num, 9);
+	assert_int_equal(map.keys[61].tone, 0);
+	assert_int_equal(map.keys[62].tone, 1);
+	assert_int_equal(map.keys[63].state, KEY_SILENT);
+	assert_int_equal(map.keys[64].tone, 2); /* 5/4, note 63.86 */
+	check_key_pitch(61, s.root_hz);
+	check_key_pitch(62, s.root_hz);
+	/* the input key moved, the pitch did not: 35/32 still goes out on 62 */
+	assert_int_equal(map.keys[61].out_key, 62);
+	assert_true(fabs(map.keys[61].cents_off - (155.140 - 200.0)) < 0.0005); /* 35/32 = 155.140 c */
+	/* every period the same way: no key sounds lower than the key below it */
+	for (int k = 1; k < KEYMAP_KEYS; k++)
+		for (int j = 0; j < k; j++)
+			if (map.keys[k].state == KEY_SOUNDING && map.keys[j].state == KEY_SOUNDING)
+				assert_true(map.keys[j].note < map.keys[k].note);
+}
+
+/* Moving lower tones down must pay for itself (our rule): the dekany's
+ * 35/32 and 9/8 on 1/1 = C4 raised by d semitones, so both round to key 62
+ * with key 61 free. */
+static void nearest_collision_goes_up_when_that_is_nearer(void **state)
+{
+	(void)state;
+	const char *const seeds[] = {"1", "3", "5", "7", "9"};
+	build_lattice(seeds, 5, 2);
+	/* d = +0.10: 35/32 at 61.65 and 9/8 at 62.14 both round to 62; moving
+	 * 35/32 down to 61 costs 0.65 - 0.35 = 0.30 more, and 9/8 then sits
+	 * 0.14 away: 0.44 in all, against 0.86 for 9/8 on 63 */
+	double hz = 440.0 * pow(2.0, (-9.0 + 0.10) / 12.0);
+	struct keymap_spec s = spec_of(KEY_LAYOUT_NEAREST, 0, hz);
+	build_map(&s);
+	assert_int_equal(map.keys[61].tone, 0);
+	assert_int_equal(map.keys[62].tone, 1);
+	/* d = +0.40: 35/32 at 61.95 and 9/8 at 62.44 round to 62; down costs
+	 * 0.95 - 0.05 = 0.90 more plus 0.44, up leaves 9/8 0.56 from 63 */
+	hz = 440.0 * pow(2.0, (-9.0 + 0.40) / 12.0);
+	s = spec_of(KEY_LAYOUT_NEAREST, 0, hz);
+	build_map(&s);
 	assert_int_equal(map.keys[62].tone, 0);
 	assert_int_equal(map.keys[63].tone, 1);
-	assert_int_equal(map.keys[64].tone, 2); /* 5/4, note 63.86 */
 	assert_int_equal(map.keys[61].state, KEY_SILENT);
-	check_key_pitch(63, s.root_hz);
-	/* the input key moved, the pitch did not: it still goes out on key 62 */
-	assert_int_equal(map.keys[63].out_key, 62);
-	assert_true(fabs(map.keys[63].cents_off - 3.910) < 0.0005); /* 9/8 = 203.910 c */
+	check_key_pitch(63, hz);
 }
 
 static void nearest_refuses_dense_sets(void **state)
@@ -245,7 +283,8 @@ int main(void)
 		cmocka_unit_test(sequential_layout),
 		cmocka_unit_test(transposition),
 		cmocka_unit_test(nearest_layout),
-		cmocka_unit_test(nearest_collision_moves_up),
+		cmocka_unit_test(nearest_collision_takes_the_nearer_free_key),
+		cmocka_unit_test(nearest_collision_goes_up_when_that_is_nearer),
 		cmocka_unit_test(nearest_refuses_dense_sets),
 		cmocka_unit_test(table_layout),
 		cmocka_unit_test(bad_pitch_reference),

@@ -9,6 +9,7 @@
 #include <stdint.h>
 #include <cmocka.h>
 #include <math.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -316,6 +317,40 @@ static void label_parsing(void **state)
 	assert_int_equal(m, 0x6);
 }
 
+/* A ratio seed is written in parentheses in labels, so no label reads as a
+ * decimal (our rule); labels parse back, and the bare form of older
+ * configs ("1.9/8") still parses. */
+static void ratio_seeds_are_labelled_in_parentheses(void **state)
+{
+	(void)state;
+	const char *const seeds[] = {"1", "9/8", "5/4", "7"};
+	struct lattice_spec s = spec_of(seeds, 4, 2, 2, 1);
+	char buf[LATTICE_LABEL_MAX];
+	assert_string_equal(lattice_label(&s, 0x3, buf, sizeof buf), "1.(9/8)");
+	assert_string_equal(lattice_label(&s, 0x6, buf, sizeof buf), "(9/8).(5/4)");
+	assert_string_equal(lattice_label(&s, 0x9, buf, sizeof buf), "1.7");
+	uint16_t m;
+	for (unsigned mask = 1; mask < 16; mask++) {
+		lattice_label(&s, (uint16_t)mask, buf, sizeof buf);
+		assert_true(lattice_parse_label(&s, buf, &m));
+		assert_int_equal(m, mask);
+	}
+	assert_true(lattice_parse_label(&s, "1.9/8", &m));
+	assert_int_equal(m, 0x3);
+	assert_true(lattice_parse_label(&s, "(7).(5/4)", &m));
+	assert_int_equal(m, 0xC);
+	assert_false(lattice_parse_label(&s, "1.(9/8", &m));
+	assert_false(lattice_parse_label(&s, "1.()", &m));
+	/* the longest label fits: 12 ratio seeds of 23 characters */
+	struct lattice_spec big;
+	memset(&big, 0, sizeof big);
+	big.seed_count = LATTICE_MAX_SEEDS;
+	for (int i = 0; i < LATTICE_MAX_SEEDS; i++)
+		snprintf(big.seed_text[i], sizeof big.seed_text[i], "%011d/%011d", i + 1, 7);
+	lattice_label(&big, 0xFFF, buf, sizeof buf);
+	assert_int_equal(strlen(buf), (size_t)(12 * 25 + 11));
+}
+
 int main(void)
 {
 	const struct CMUnitTest tests[] = {
@@ -330,6 +365,7 @@ int main(void)
 		cmocka_unit_test(bad_specs_fail_with_field),
 		cmocka_unit_test(overflow_is_an_error),
 		cmocka_unit_test(label_parsing),
+		cmocka_unit_test(ratio_seeds_are_labelled_in_parentheses),
 	};
 	return cmocka_run_group_tests(tests, NULL, NULL);
 }

@@ -3,7 +3,7 @@
  * order, one line each, with their level; a full ring drops lines and the
  * next line that gets through reports how many; over-long lines are cut
  * short within the record; newlines never split an event into two lines.
- * (Our own interface: no outside source applies.)
+ * (Our rules, for our own interface: no outside source applies.)
  */
 #include <setjmp.h>
 #include <stdarg.h>

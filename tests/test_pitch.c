@@ -2,11 +2,12 @@
  * Tests of pitch math: note numbers and Hz, pitch-bend values and MTS
  * frequency words, against the published formulas and vectors.
  *
- * Sources: MIDI 1.0 pitch bend, 14 bits, centre 8192 = bytes 00 40
- * (alsa-lib seq_midi_event.c, FluidSynth fluid_midi.c); MIDI Tuning
- * Standard frequency word xx yy zz, 100/16384 cent steps, 7F 7F 7F =
- * no change (MMA "MIDI Tuning Messages" and the 2018 midi.org forum thread
- * on the spec's example table); A4 = 440 Hz = key 69 (ISO 16, MTS).
+ * Sources (tags in DEVELOPERS.md): MIDI 1.0 pitch bend, 14 bits, centre
+ * 8192 = bytes 00 40 ([M1]; alsa-lib seq_midi_event.c [AL] agrees); MIDI
+ * Tuning Standard frequency word xx yy zz, 100/16384 cent steps, 7F 7F 7F
+ * = no change [MTS] (the spec's own example table has rounding slips, so
+ * vectors are computed from its definition); A4 = 440 Hz = key 69
+ * (ISO 16, [MTS]).
  * Numeric vectors were computed from those formulas in double precision
  * (marked "computed").
  */
@@ -111,7 +112,8 @@ static void mts_words(void **state)
 	(void)state;
 	uint8_t w[3];
 	/* 5/4 above C4 (261.6256 Hz) = 327.0320 Hz -> 3F 6E 3E, key 63 fraction
-	 * 14142 (computed, MTS encoding steps from the 2018 midi.org answer) */
+	 * 14142 (computed from the [MTS] word: the key at or below, then the
+	 * fraction of a semitone times 16384, rounded) */
 	double note = pitch_note_of_hz(261.6255653005986 * 5.0 / 4.0);
 	assert_true(pitch_mts_word(note, w));
 	assert_int_equal(w[0], 0x3F);

@@ -4,7 +4,7 @@
  * queues (so they wrap and fill thousands of times) and every item must
  * arrive once, in order; a full queue refuses a push without changing
  * anything; multi-slot messages arrive whole or not at all.
- * (Our own interface; the property checked is the single-producer /
+ * (Our rules, for our own interface; the property checked is the single-producer /
  * single-consumer FIFO contract, common practice.)
  */
 #include <setjmp.h>

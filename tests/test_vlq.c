@@ -67,7 +67,7 @@ static void test_limits(void **state)
 	/* [SMF]: largest value 0x0FFFFFFF */
 	assert_int_equal(vlq_encode(0x10000000, out), 0);
 	assert_int_equal(vlq_length(0xFFFFFFFF), 0);
-	/* [SMF], [FS]: a fifth byte is an error */
+	/* [SMF]: a number takes at most four bytes, so a fifth is an error */
 	static const uint8_t five[] = { 0x81, 0x80, 0x80, 0x80, 0x00 };
 	uint32_t v;
 	size_t used;

@@ -93,13 +93,52 @@ struct engine_input_spec {
 	int mpe_bend_range;          /* semitones of its per-note bend */
 };
 
+/*
+ * The player's controls of the tuning (engine_steer.c).  They come from the
+ * control channel: a channel of its own, whose every message steers and
+ * none sounds; or the playing channels themselves (ENGINE_CONTROL_PLAYING),
+ * where only the bound controllers (and, if asked, program changes) steer
+ * and everything else plays.  Reserved keys and key bindings steer on the
+ * playing channels and on a control channel of its own, and never sound.
+ *
+ * A binding is a controller or a key.  A key acts on its note-on.  A
+ * controller acts on a press: MIDI 1.0 reads a switch controller's 0-63 as
+ * off and 64-127 as on, so a press is a value of 64 or more after one
+ * below 64 (the release, which does nothing), after nothing yet, or the
+ * same value again (a button that sends only its press).  A latching pedal
+ * stays down after one press and comes up at the next, so each press flips
+ * it: with `latching` every change between off and on is a press.
+ */
+#define ENGINE_CONTROL_NONE (-1)     /* no control channel */
+#define ENGINE_CONTROL_PLAYING (-2)  /* the retuned input channels */
+
+enum engine_action {
+	ENGINE_ACTION_PRESET_NEXT,
+	ENGINE_ACTION_PRESET_PREVIOUS,
+	ENGINE_ACTION_ROOT_NEXT,     /* home, tone 0, tone 1, ... as root_keys */
+	ENGINE_ACTION_ROOT_PREVIOUS,
+	ENGINE_ACTION_ROOT_HOME,
+	ENGINE_ACTION_PANIC,         /* engine_panic */
+	ENGINE_ACTION_COUNT,
+};
+
+enum engine_binding_kind { ENGINE_BINDING_NONE, ENGINE_BINDING_CC, ENGINE_BINDING_KEY };
+
+struct engine_binding {
+	int kind;                    /* enum engine_binding_kind */
+	int number;                  /* controller 0..119 or key 0..127 */
+	bool latching;               /* a controller from a latching pedal */
+};
+
 struct engine_control_spec {
-	int channel;                 /* 0..15, or -1: none; it steers, never sounds */
+	int channel;                 /* 0..15, ENGINE_CONTROL_NONE or ENGINE_CONTROL_PLAYING */
 	bool program_selects_preset; /* program change on that channel */
 	int preset_cc;               /* CC number on that channel, -1 none */
 	int root_cc;                 /* value 0 = home, n = tone n-1 becomes 1/1 */
 	int preset_keys;             /* first reserved key, -1 none */
 	int root_keys;               /* first reserved key: home, tone 0, tone 1, ... */
+	struct engine_binding actions[ENGINE_ACTION_COUNT];
+	bool wrap;                   /* a step past either end goes round (else it stays) */
 };
 
 struct engine_spec {
@@ -129,6 +168,30 @@ enum engine_notice {
 	NOTICE_NOTE_STOLEN = 1u << 2,
 	NOTICE_PASSTHROUGH_BLOCKED = 1u << 3,/* a pass-through channel is one we retune on */
 	NOTICE_NOTES_FULL = 1u << 4,
+	/* a control message selected nothing (engine_take_control_miss); raised
+	 * again every time, for the shell to rate-limit */
+	NOTICE_CONTROL_MISSED = 1u << 5,
+};
+
+/* A control message that selected nothing, as engine_take_control_miss
+ * reports it (the shell words it). */
+enum engine_miss_kind {
+	ENGINE_MISS_PROGRAM,         /* program change `number` >= the preset count */
+	ENGINE_MISS_PRESET_CC,       /* preset_cc `number` with `value` >= the preset count */
+	ENGINE_MISS_ROOT_CC,         /* root_cc `number` with `value` beyond the preset's tones */
+	ENGINE_MISS_ROOT_KEY,        /* reserved key `number` beyond the preset's tones */
+	ENGINE_MISS_STEP_END,        /* `action` at an end, with wrap off */
+};
+
+struct engine_control_miss {
+	enum engine_miss_kind kind;
+	enum engine_action action;   /* ENGINE_MISS_STEP_END */
+	uint8_t channel;             /* 0..15, where it came from */
+	uint8_t number, value;       /* controller, key or program; the controller's value */
+	int preset, root;            /* where the engine stayed */
+	char preset_name[ENGINE_NAME_MAX];
+	int presets, tones;          /* how many presets, and tones in that preset */
+	uint32_t count;              /* misses since the last take, this one among them */
 };
 
 struct engine_stats {
@@ -141,6 +204,14 @@ struct engine_stats {
 	uint32_t passthrough_blocked;
 	uint32_t tuning_changes;         /* MTS single-note changes sent */
 	uint32_t messages_out;
+	uint32_t control_panics;         /* panics from the panic binding */
+};
+
+/* What engine_replace_tunings kept. */
+enum engine_kept {
+	ENGINE_KEPT_PRESET_AND_ROOT,     /* the preset by name, the root by its tone's label */
+	ENGINE_KEPT_PRESET,              /* the root's tone is gone from the preset: home */
+	ENGINE_KEPT_NOTHING,             /* the preset is gone: the first one, at home */
 };
 
 /* One sounding note as the shell sees it (engine_note_at). */
@@ -150,6 +221,7 @@ struct engine_note_info {
 	bool ringing;                        /* released, held by a pedal */
 	uint32_t started;                    /* engine_serial() just after it began */
 	int preset;                          /* index into the tunings it began under */
+	int root;                            /* the root slot it began under (0 = home) */
 	int tone, period;                    /* its tone of that preset's lattice */
 	double pitch;                        /* exact pitch as a note number */
 };
@@ -183,7 +255,7 @@ struct engine_note {
 	bool sostenuto_latched;
 	uint32_t started;
 	double note;                     /* exact pitch as a note number */
-	int16_t preset, tone, period;
+	int16_t preset, root, tone, period;
 };
 
 struct engine_out_channel {
@@ -257,6 +329,13 @@ struct engine {
 	struct engine_mts_state mts;
 	struct passthrough passthrough;  /* notes on channels not retuned */
 
+	uint8_t action_value[ENGINE_ACTION_COUNT]; /* a bound controller's last value, 0xFF none */
+	uint64_t steer_keys[2];          /* keys that steer on a playing channel */
+	uint64_t steer_ccs[2];           /* controllers that steer there (channel = playing) */
+	bool steer_program;              /* program changes steer there */
+	struct engine_control_miss miss;
+	bool miss_pending;
+
 	uint32_t notices;
 	uint32_t notices_reported;
 	struct engine_stats stats;
@@ -301,16 +380,34 @@ struct engine_release engine_release_held(struct engine *e,
 /* Tuning changes for new notes.  Return false if out of range. */
 bool engine_select_preset(struct engine *e, int preset);
 bool engine_select_root(struct engine *e, int slot);
-/* Takes new tunings (a reload); keeps the preset by name if it still exists. */
-void engine_replace_tunings(struct engine *e, const struct engine_tunings *tunings);
+/* Before engine_start: begin in this preset and root slot (where a
+ * restarted daemon left off); sends nothing, since engine_start sends
+ * the set-up for them.  False if out of range. */
+bool engine_resume_at(struct engine *e, int preset, int slot);
+/*
+ * Takes new tunings (a reload).  Keeps the preset by name if it still
+ * exists, and then the root by its tone's label if that preset still has
+ * the tone (a reload mid-song must not move the player's 1/1); else the
+ * first preset, at home.  Says which.
+ */
+enum engine_kept engine_replace_tunings(struct engine *e, const struct engine_tunings *tunings);
 
 /* Reports every note that starts or stops sounding to fn (NULL: no more),
  * so a shell can show what sounds without scanning the notes.  fn runs
  * inside engine_handle and friends: it must not call into this engine. */
 void engine_watch_notes(struct engine *e, engine_note_watch_fn fn, void *context);
 
-/* Warnings raised since the last call, each reported once per engine. */
+/* Does message m steer (a control, not a note), and is it the panic? */
+enum engine_steer { ENGINE_STEER_NONE, ENGINE_STEER_TUNING, ENGINE_STEER_PANIC };
+enum engine_steer engine_steers(const struct engine *e, const struct midi_msg *m);
+
+/* Warnings raised since the last call, each reported once per engine
+ * (NOTICE_CONTROL_MISSED: every time). */
 uint32_t engine_take_notices(struct engine *e);
+/* The latest control message that selected nothing, with the count since
+ * the last call; false if there was none.  A miss not taken stays, and
+ * later ones are counted into it. */
+bool engine_take_control_miss(struct engine *e, struct engine_control_miss *out);
 
 /* ---- reading the engine ------------------------------------------------- */
 
@@ -339,6 +436,10 @@ bool engine_note_at(const struct engine *e, int n, struct engine_note_info *out)
  * started <= a serial read earlier began before that read. */
 uint32_t engine_serial(const struct engine *e);
 const struct engine_stats *engine_stats(const struct engine *e);
+
+/* The output channels notes go to under this spec (the bend pool, the mts
+ * channels, the mpe members the channels name); 0 if the spec is refused. */
+uint16_t engine_note_channels(const struct engine_spec *spec);
 
 const char *retune_method_name(enum retune_method method);
 /* Does the method's pitch bend carry each note's retune (bend, mpe), or

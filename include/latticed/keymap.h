@@ -10,8 +10,12 @@
  *               M slots in keyboard period floor(i / M); a slot is silent
  *               or names a tone and a period shift;
  *   nearest     every tone, in every period MIDI can sound, goes to the
- *               12-TET key nearest its pitch; a taken key pushes it to the
- *               next free key above; keys nobody claims are silent.
+ *               12-TET key nearest its pitch; when lower tones already
+ *               hold that key, it goes to the free key just above them, or
+ *               they move down onto the free key just below them and it
+ *               takes the last of theirs, whichever keeps the keys nearer
+ *               their pitches in all (keys stay in pitch order); keys
+ *               nobody claims are silent.
  * Transposition moves the finished map up by whole keys: key k plays what
  * key k - transpose played.
  *
@@ -79,6 +83,14 @@ const char *key_layout_name(enum key_layout layout);
 
 bool keymap_build(struct keymap *out, const struct lattice *lat,
 		  const struct keymap_spec *spec, struct core_error *err);
+
+/*
+ * Moves every sounding key's pitch by `cents` (a re-rooting: see
+ * retune_root_shift), keeping its tone and period, as the engine's
+ * retune table does: a key that leaves MIDI's range becomes out of range,
+ * and keys silent or out of range before stay so.
+ */
+void keymap_shift(struct keymap *map, double cents);
 
 /* Cents of the period: the pitch distance between period p and p + 1. */
 double keymap_period_cents(const struct lattice *lat);

@@ -10,7 +10,8 @@
  *
  * A subset of seeds is a bit mask (bit i = seed i), which is also how a
  * tone remembers where it came from: its label joins the seed texts with
- * '.', e.g. "3.7".
+ * '.', e.g. "3.7", a seed written as a ratio in parentheses, e.g.
+ * "1.(9/8)" (bare, "1.9/8" reads as a decimal divided by 8).
  *
  * Chords are the two families of a CPS:
  *   harmonic    for every (k-1)-subset S: the tones S+{x}, x not in S
@@ -38,8 +39,8 @@
 #define LATTICE_MAX_CHORDS (2 * 924)   /* C(12,k-1) + C(12,k+1) <= 1848 */
 #define LATTICE_MAX_CHORD_TONES 12
 #define LATTICE_SEED_TEXT_MAX 24
-/* Longest tone label: 12 seed texts and 11 dots. */
-#define LATTICE_LABEL_MAX (LATTICE_MAX_SEEDS * LATTICE_SEED_TEXT_MAX)
+/* Longest tone label: 12 seed texts in parentheses and 11 dots. */
+#define LATTICE_LABEL_MAX (LATTICE_MAX_SEEDS * (LATTICE_SEED_TEXT_MAX + 2))
 
 struct lattice_spec {
 	int seed_count;
@@ -98,13 +99,15 @@ int64_t binomial(int n, int k);
 bool lattice_build(struct lattice *out, const struct lattice_spec *spec,
 		   struct core_error *err);
 
-/* "3.7"-style label of a seed mask, written into buf; returns buf. */
+/* "3.7"-style label of a seed mask ("1.(9/8)" for a ratio seed), written
+ * into buf; returns buf. */
 char *lattice_label(const struct lattice_spec *spec, uint16_t seeds,
 		    char *buf, size_t size);
 
 /*
- * Parses a label ("3.7", seeds joined by '.') into a mask using the spec's
- * seed texts; a repeated text picks the next seed written that way.
+ * Parses a label ("3.7", seeds joined by '.'; a ratio seed in parentheses,
+ * "1.(9/8)", or bare, "1.9/8") into a mask using the spec's seed texts; a
+ * repeated text picks the next seed written that way.
  * Returns false when a part names no seed.
  */
 bool lattice_parse_label(const struct lattice_spec *spec, const char *text,

@@ -18,6 +18,7 @@
 #include <stdint.h>
 
 #include "latticed/keymap.h"
+#include "latticed/ratio.h"
 
 struct retune_key {
 	bool sounding;
@@ -42,5 +43,16 @@ void retune_table_build(struct retune_table *t, const struct keymap *map,
 
 /* The shift that moves the 1/1 to `tone`, folded into half a period either way. */
 double retune_root_shift(const struct lattice *lat, int tone);
+
+/* The same shift as an exact ratio (the tone's ratio, over the period when
+ * it folds down); 1/1 for a tone outside the set (home).  False on overflow. */
+bool retune_root_ratio(const struct lattice *lat, int tone, struct ratio *out);
+
+/* What a note of `tone` in `period` sounds at under root slot root_slot
+ * (0 = home, t + 1 = tone t is 1/1), as an exact ratio to the home 1/1:
+ * ratio(tone) * P^period * the root's ratio.  False on overflow or a tone
+ * outside the set. */
+bool retune_sounding_ratio(const struct lattice *lat, int tone, int period, int root_slot,
+			   struct ratio *out);
 
 #endif

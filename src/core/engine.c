@@ -40,6 +40,15 @@ bool retune_method_bends_notes(enum retune_method method)
 	return m && m->bend_carries_retune;
 }
 
+uint16_t engine_note_channels(const struct engine_spec *spec)
+{
+	const struct engine_method *m = method_of(spec->output.method);
+	struct engine_channels plan;
+	struct core_error err;
+	memset(&plan, 0, sizeof plan);
+	return m && m->plan(spec, &plan, &err) ? plan.pool : 0;
+}
+
 /* ---- the tuning table ---------------------------------------------------- */
 
 static const struct engine_preset *current_preset(const struct engine *e)
@@ -59,6 +68,7 @@ static void rebuild_table(struct engine *e)
 		if (e->tunings->presets[i].lattice->tone_count > most)
 			most = e->tunings->presets[i].lattice->tone_count;
 	e->reserved_root_keys = most + 1;
+	engine_steer_refresh(e); /* the runs of reserved keys follow the tunings */
 }
 
 static void tuning_changed(struct engine *e)
@@ -87,16 +97,40 @@ bool engine_select_root(struct engine *e, int slot)
 	return true;
 }
 
-void engine_replace_tunings(struct engine *e, const struct engine_tunings *tunings)
+bool engine_resume_at(struct engine *e, int preset, int slot)
 {
-	int keep = 0;
-	for (int i = 0; i < tunings->count; i++)
-		if (strcmp(tunings->presets[i].name, current_preset(e)->name) == 0)
+	if (preset < 0 || preset >= e->tunings->count || slot < 0 ||
+	    slot > e->tunings->presets[preset].lattice->tone_count)
+		return false;
+	e->preset = preset;
+	e->root_slot = slot;
+	rebuild_table(e);
+	return true;
+}
+
+enum engine_kept engine_replace_tunings(struct engine *e, const struct engine_tunings *tunings)
+{
+	const struct engine_preset *was = current_preset(e);
+	int keep = -1;
+	for (int i = 0; i < tunings->count && keep < 0; i++)
+		if (strcmp(tunings->presets[i].name, was->name) == 0)
 			keep = i;
+	int slot = 0;
+	if (keep >= 0 && e->root_slot > 0) {
+		/* the old set is still whole: it is retired, not freed, until its notes end */
+		char label[LATTICE_LABEL_MAX];
+		const struct lattice *old = was->lattice;
+		lattice_label(&old->spec, old->tones[e->root_slot - 1].seeds, label, sizeof label);
+		slot = lattice_find_tone(tunings->presets[keep].lattice, label) + 1;
+	}
+	enum engine_kept kept = keep < 0 ? ENGINE_KEPT_NOTHING
+			      : slot > 0 || e->root_slot == 0 ? ENGINE_KEPT_PRESET_AND_ROOT
+			      : ENGINE_KEPT_PRESET;
 	e->tunings = tunings;
-	e->preset = keep;
-	e->root_slot = 0;
+	e->preset = keep < 0 ? 0 : keep;
+	e->root_slot = slot;
 	tuning_changed(e);
+	return kept;
 }
 
 /* ---- set-up --------------------------------------------------------------- */
@@ -176,6 +210,7 @@ bool engine_init(struct engine *e, const struct engine_spec *spec,
 			? spec->input.mpe_bend_range * 100.0
 			: spec->input.wheel_range_cents;
 	}
+	engine_steer_init(e);
 	rebuild_table(e);
 	return true;
 }
@@ -198,6 +233,7 @@ static void note_info(const struct engine_note *note, struct engine_note_info *o
 	out->ringing = note->phase == NOTE_RINGING;
 	out->started = note->started;
 	out->preset = note->preset;
+	out->root = note->root;
 	out->tone = note->tone;
 	out->period = note->period;
 	out->pitch = note->note;
@@ -272,26 +308,8 @@ void engine_settle_ringing(struct engine *e, int g)
 	}
 }
 
-static bool handle_reserved_key(struct engine *e, int key)
-{
-	const struct engine_control_spec *c = &e->spec.control;
-	if (c->preset_keys >= 0 && key >= c->preset_keys &&
-	    key < c->preset_keys + e->tunings->count) {
-		engine_select_preset(e, key - c->preset_keys);
-		return true;
-	}
-	if (c->root_keys >= 0 && key >= c->root_keys &&
-	    key < c->root_keys + e->reserved_root_keys) {
-		engine_select_root(e, key - c->root_keys);
-		return true;
-	}
-	return false;
-}
-
 static void note_on(struct engine *e, uint8_t source, int ch, int key, uint8_t velocity)
 {
-	if (handle_reserved_key(e, key))
-		return;
 	int previous = e->key_down[source][ch][key];
 	if (previous != NO_NOTE)
 		engine_release_note(e, previous, 64); /* a second note-on ends the first */
@@ -324,6 +342,7 @@ static void note_on(struct engine *e, uint8_t source, int ch, int key, uint8_t v
 	n->started = ++e->serial;
 	n->note = rk->note;
 	n->preset = (int16_t)e->preset;
+	n->root = (int16_t)e->root_slot;
 	n->tone = rk->tone;
 	n->period = rk->period;
 	engine_bit_put(e->note_used, index, true);
@@ -346,28 +365,12 @@ static void note_off(struct engine *e, uint8_t source, int ch, int key, uint8_t 
 
 /* ---- messages ------------------------------------------------------------------ */
 
-static void control_channel_message(struct engine *e, const struct midi_msg *m)
-{
-	const struct engine_control_spec *c = &e->spec.control;
-	uint8_t type = midi_msg_type(m);
-	if (type == MIDI_PROGRAM && c->program_selects_preset)
-		engine_select_preset(e, m->data[0]);
-	else if (type == MIDI_CONTROL && m->data[0] == c->preset_cc)
-		engine_select_preset(e, m->data[1]);
-	else if (type == MIDI_CONTROL && m->data[0] == c->root_cc)
-		engine_select_root(e, m->data[1]);
-	else if (type == MIDI_NOTE_ON && m->data[1] > 0)
-		handle_reserved_key(e, m->data[0]);
-}
-
 static void channel_message(struct engine *e, uint8_t source, const struct midi_msg *m)
 {
 	int ch = midi_msg_channel(m);
 	uint8_t type = midi_msg_type(m);
-	if (ch == e->spec.control.channel) {
-		control_channel_message(e, m);
-		return;
-	}
+	if (engine_may_steer(e, m) && engine_steer_message(e, m))
+		return; /* the control channel, a reserved key, a bound controller */
 	if (!((e->retuned >> ch) & 1)) {
 		if (engine_uses(e, ch)) {
 			e->stats.passthrough_blocked++;
@@ -521,7 +524,7 @@ struct engine_release engine_release_held(struct engine *e,
 uint32_t engine_take_notices(struct engine *e)
 {
 	uint32_t fresh = e->notices & ~e->notices_reported;
-	e->notices_reported |= e->notices;
+	e->notices_reported |= e->notices & ~(uint32_t)NOTICE_CONTROL_MISSED;
 	e->notices = 0;
 	return fresh;
 }

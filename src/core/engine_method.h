@@ -174,6 +174,38 @@ void engine_release_note(struct engine *e, int index, uint8_t velocity);
 /* Ends the ringing notes of global input channel g that no pedal holds now. */
 void engine_settle_ringing(struct engine *e, int g);
 
+/* ---- the player's controls of the tuning (engine_steer.c) ------------------- */
+
+void engine_steer_init(struct engine *e);
+/* Works out again which keys and controllers steer (the tunings changed). */
+void engine_steer_refresh(struct engine *e);
+/* Acts on m if it steers (true: taken, it plays nothing); every message on
+ * the control channel is taken. */
+bool engine_steer_message(struct engine *e, const struct midi_msg *m);
+
+/* Could channel message m steer?  The quick look every message gets (most
+ * of them play): anything on the control channel; on a retuned channel a
+ * note-on of a key in steer_keys, a controller in steer_ccs, a program
+ * change when those steer.  False means it certainly plays. */
+static inline bool engine_may_steer(const struct engine *e, const struct midi_msg *m)
+{
+	int ch = m->status & 0x0F;
+	if (ch == e->spec.control.channel)
+		return true;
+	if (!((e->retuned >> ch) & 1))
+		return false;
+	switch (m->status & 0xF0) {
+	case MIDI_NOTE_ON:
+		return m->data[1] > 0 && engine_bit(e->steer_keys, m->data[0]);
+	case MIDI_PROGRAM:
+		return e->steer_program;
+	case MIDI_CONTROL:
+		return engine_bit(e->steer_ccs, m->data[0]);
+	default:
+		return false;
+	}
+}
+
 /* ---- the methods' shared parts -------------------------------------------------- */
 
 /* Bend and mpe: a free channel with the right bend, else the one freed

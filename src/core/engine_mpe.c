@@ -7,7 +7,10 @@
  * zone up.  Notes rotate over the member channels as in the bend method
  * (engine_rotate_place), each member's bend carrying its note's retune at
  * the members' bend range (RPN 0); a poly pressure becomes its note's
- * channel pressure.
+ * channel pressure.  Notes go only to the members the output's channels
+ * name, as the bend method's pool does: a member left out (channel 10, by
+ * the config's default) carries what the input passes through on it, a
+ * drum track say, instead of dropping it.
  */
 #include "engine_method.h"
 
@@ -20,9 +23,14 @@ static bool mpe_plan(const struct engine_spec *spec, struct engine_channels *pla
 				 o->mpe_members);
 	bool lower = o->mpe_zone == MPE_ZONE_LOWER;
 	plan->global_channel = lower ? 0 : 15;
-	plan->pool = 0;
+	uint16_t zone = 0;
 	for (int i = 1; i <= o->mpe_members; i++)
-		plan->pool |= (uint16_t)(1u << (lower ? i : 15 - i));
+		zone |= (uint16_t)(1u << (lower ? i : 15 - i));
+	plan->pool = zone & o->channels;
+	if (plan->pool == 0)
+		return core_fail(err, "channels",
+				 "the output's channels name none of the zone's %d member channels (%d to %d), expected at least one of them",
+				 o->mpe_members, lower ? 2 : 16 - o->mpe_members, lower ? o->mpe_members + 1 : 15);
 	return true;
 }
 

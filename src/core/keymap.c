@@ -3,10 +3,11 @@
  *
  * The nearest layout works in a "virtual key" space twice the keyboard's
  * width so that transposition can shift tones on or off the keyboard
- * without changing which tone claimed which key.  It refuses sets denser
- * than the keyboard (more tones per period than 12-TET keys per period):
- * pushing collisions upward would then cascade through the whole range and
- * every key would end up far from its tone.
+ * without changing which tone claimed which key.  Two tones nearest the
+ * same key share out the free keys on either side of them, in pitch order.
+ * It refuses sets denser than the keyboard (more tones per period than
+ * 12-TET keys per period): collisions would then cascade through the whole
+ * range and every key would end up far from its tone.
  */
 #include "latticed/keymap.h"
 
@@ -72,6 +73,35 @@ static void place(struct keymap *map, int key, int tone, int period,
 	map->sounding_count++;
 }
 
+/*
+ * Key v, the nearest to `note`, is taken: by the run of claimed keys
+ * lo..hi around it, all of them lower tones (the walk goes up in pitch).
+ * Keeping the keys in pitch order, the new tone goes either just above the
+ * run, or on hi with the whole run moved down onto the free key below it;
+ * whichever leaves the keys nearer their pitches in all (a tie goes up).
+ * Returns the key for the new tone (VIRTUAL_KEYS: none).
+ */
+static int make_room(int16_t *tone, int16_t *period, double *notes, int v, double note)
+{
+	int lo = v, hi = v;
+	while (lo > 0 && tone[lo - 1] >= 0)
+		lo--;
+	while (hi + 1 < VIRTUAL_KEYS && tone[hi + 1] >= 0)
+		hi++;
+	double up = fabs(hi + 1 - note);
+	double down = fabs(hi - note);
+	for (int k = lo; k <= hi; k++)
+		down += fabs(k - 1 - notes[k]) - fabs(k - notes[k]);
+	if (lo == 0 || !(down < up))
+		return hi + 1;
+	for (int k = lo; k <= hi; k++) {
+		tone[k - 1] = tone[k];
+		period[k - 1] = period[k];
+		notes[k - 1] = notes[k];
+	}
+	return hi;
+}
+
 static bool build_nearest(struct keymap *map, const struct lattice *lat,
 			  const struct keymap_spec *spec, double root_note,
 			  struct core_error *err)
@@ -90,7 +120,7 @@ static bool build_nearest(struct keymap *map, const struct lattice *lat,
 		claimed_tone[v] = -1;
 
 	/* tones ascend within a period, so walking periods then tones is
-	 * walking pitch upward: a collision always pushes the higher tone up */
+	 * walking pitch upward: every key taken so far holds a lower tone */
 	int lowest_period = (int)floor((0.0 - root_note) / period_keys) - 1;
 	int highest_period = (int)ceil((MTS_NOTE_MAX - root_note) / period_keys) + 1;
 	for (int p = lowest_period; p <= highest_period; p++) {
@@ -99,8 +129,8 @@ static bool build_nearest(struct keymap *map, const struct lattice *lat,
 			if (note < 0.0 || note > MTS_NOTE_MAX)
 				continue;
 			int v = (int)lround(note);
-			while (v < VIRTUAL_KEYS && claimed_tone[v] >= 0)
-				v++;
+			if (v < VIRTUAL_KEYS && claimed_tone[v] >= 0)
+				v = make_room(claimed_tone, claimed_period, claimed_note, v, note);
 			if (v >= VIRTUAL_KEYS)
 				continue;
 			claimed_tone[v] = (int16_t)t;
@@ -177,4 +207,15 @@ bool keymap_build(struct keymap *out, const struct lattice *lat,
 	}
 	*out = map;
 	return true;
+}
+
+void keymap_shift(struct keymap *map, double cents)
+{
+	for (int key = 0; key < KEYMAP_KEYS; key++) {
+		struct key_pitch *k = &map->keys[key];
+		if (k->state != KEY_SOUNDING)
+			continue;
+		map->sounding_count--;
+		place(map, key, k->tone, k->period, k->note + cents / 100.0);
+	}
 }

@@ -77,6 +77,13 @@ static int subset_walk_next(struct subset_walk *w)
 	return mask;
 }
 
+/* A seed written as a ratio sits in parentheses inside a label, so "1.(9/8)"
+ * cannot be read as the decimal 1.9 over 8. */
+static bool seed_needs_parentheses(const char *text)
+{
+	return strchr(text, '/') != NULL;
+}
+
 char *lattice_label(const struct lattice_spec *spec, uint16_t seeds,
 		    char *buf, size_t size)
 {
@@ -85,8 +92,9 @@ char *lattice_label(const struct lattice_spec *spec, uint16_t seeds,
 	for (int i = 0; i < spec->seed_count; i++) {
 		if (!(seeds & (1u << i)))
 			continue;
-		int n = snprintf(buf + used, size - used, "%s%s",
-				 used ? "." : "", spec->seed_text[i]);
+		bool wrap = seed_needs_parentheses(spec->seed_text[i]);
+		int n = snprintf(buf + used, size - used, "%s%s%s%s", used ? "." : "",
+				 wrap ? "(" : "", spec->seed_text[i], wrap ? ")" : "");
 		if (n < 0 || (size_t)n >= size - used)
 			break;
 		used += (size_t)n;
@@ -102,6 +110,11 @@ bool lattice_parse_label(const struct lattice_spec *spec, const char *text,
 	for (;;) {
 		const char *dot = strchr(p, '.');
 		size_t len = dot ? (size_t)(dot - p) : strlen(p);
+		/* "(9/8)" or the bare "9/8" of older configs: seed texts hold no '.' */
+		if (len >= 2 && p[0] == '(' && p[len - 1] == ')') {
+			p++;
+			len -= 2;
+		}
 		int found = -1;
 		for (int i = 0; i < spec->seed_count && found < 0; i++) {
 			if (m & (1u << i))

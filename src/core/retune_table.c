@@ -32,13 +32,42 @@ void retune_table_build(struct retune_table *t, const struct keymap *map,
 	}
 }
 
+/* Folded down a period when the tone lies above half of it. */
+static bool root_folds(const struct lattice *lat, int tone)
+{
+	return lat->tones[tone].cents > ratio_cents(lat->spec.period) / 2;
+}
+
 double retune_root_shift(const struct lattice *lat, int tone)
 {
 	if (tone < 0 || tone >= lat->tone_count)
 		return 0.0;
-	double period = ratio_cents(lat->spec.period);
 	double shift = lat->tones[tone].cents;
-	if (shift > period / 2)
-		shift -= period;
+	if (root_folds(lat, tone))
+		shift -= ratio_cents(lat->spec.period);
 	return shift;
+}
+
+bool retune_root_ratio(const struct lattice *lat, int tone, struct ratio *out)
+{
+	if (tone < 0 || tone >= lat->tone_count) {
+		*out = (struct ratio){1, 1};
+		return true;
+	}
+	struct ratio r = lat->tones[tone].ratio;
+	if (root_folds(lat, tone))
+		return ratio_div(r, lat->spec.period, out);
+	*out = r;
+	return true;
+}
+
+bool retune_sounding_ratio(const struct lattice *lat, int tone, int period, int root_slot,
+			   struct ratio *out)
+{
+	if (tone < 0 || tone >= lat->tone_count)
+		return false;
+	struct ratio root, shift, r;
+	return retune_root_ratio(lat, root_slot - 1, &root) &&
+	       ratio_pow(lat->spec.period, period, &shift) &&
+	       ratio_mul(lat->tones[tone].ratio, shift, &r) && ratio_mul(r, root, out);
 }

@@ -20,6 +20,7 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
+#include "config_control.h"
 #include "config_ini.h"
 #include "midi_io.h"
 
@@ -63,7 +64,7 @@ static void output_defaults(struct output_config *out, const char *name)
 void config_defaults(struct config *out)
 {
 	memset(out, 0, sizeof *out);
-	text_copy(out->path, sizeof out->path, "(built-in defaults)");
+	text_copy(out->path, sizeof out->path, CONFIG_BUILTIN_NAME);
 	out->preset_count = 1;
 	text_copy(out->presets[0].name, sizeof out->presets[0].name, "main");
 	config_keys_defaults("preset", &out->presets[0]);
@@ -159,8 +160,12 @@ static struct output_config *output_for(struct interp *in, const struct config_e
 		return NULL;
 	struct config *cfg = in->cfg;
 	int i = config_find_output(cfg, name);
-	if (i >= 0)
+	if (i >= 0) {
+		if (e->key[0] == '\0')
+			fail(in, e->line, "[output %s] is already on line %d, expected each output once (all its keys in one section)",
+			     name, cfg->outputs[i].line);
 		return &cfg->outputs[i];
+	}
 	if (cfg->output_count >= CONFIG_MAX_OUTPUTS) {
 		refuse_section(in, e, "output", name, &in->outputs_refused, &in->output_refused_line);
 		return NULL;
@@ -179,8 +184,18 @@ static struct preset_config *preset_for(struct interp *in, const struct config_e
 		return NULL;
 	struct config *cfg = in->cfg;
 	int i = config_find_preset(cfg, name);
-	if (i >= 0)
+	if (i == 0) {
+		if (e->key[0] == '\0')
+			fail(in, e->line, "[preset %s]: '%s' is the name of the main tuning ([lattice], [pitch] and [keys]), expected another name",
+			     name, name);
+		return NULL;
+	}
+	if (i > 0) {
+		if (e->key[0] == '\0')
+			fail(in, e->line, "[preset %s] is already on line %d, expected each preset once (all its keys in one section)",
+			     name, cfg->presets[i].line);
 		return &cfg->presets[i];
+	}
 	if (cfg->preset_count >= CONFIG_MAX_PRESETS) {
 		refuse_section(in, e, "preset", name, &in->presets_refused, &in->preset_refused_line);
 		return NULL;
@@ -316,6 +331,7 @@ static void cross_check(struct interp *in)
 		fail(in, config_line_of(&cfg->lines, "control", "channel"),
 		     "the control channel %d is also retuned in [input] channels, expected a channel the player does not play on",
 		     ctl + 1);
+	in->errors += config_control_check(cfg, in->report);
 	int inputs = __builtin_popcount(input->channels);
 	for (int i = 0; i < cfg->output_count; i++) {
 		struct output_config *o = &cfg->outputs[i];
@@ -325,6 +341,10 @@ static void cross_check(struct interp *in)
 		/* the default follows the method: MPE 1.0 section 2.4 says 48 for members */
 		if (config_line_of(&o->lines, "output", "bend_range") == 0)
 			spec->bend_range = spec->method == RETUNE_MPE ? 48 : 2;
+		/* every member of the zone but 10, which stays free for a drum
+		 * track passed through, as the bend pool's 2-16 leaves it */
+		if (spec->method == RETUNE_MPE && config_line_of(&o->lines, "output", "channels") == 0)
+			spec->channels = (uint16_t)(0xFFFFu & ~(1u << 9));
 		int outputs = __builtin_popcount(spec->channels);
 		if (spec->method == RETUNE_MTS && outputs < inputs)
 			fail(in, o->line,
@@ -501,4 +521,15 @@ int config_find_preset(const struct config *cfg, const char *name)
 		if (strcmp(cfg->presets[i].name, name) == 0)
 			return i;
 	return -1;
+}
+
+int config_find_preset_or_number(const struct config *cfg, const char *text)
+{
+	int by_name = config_find_preset(cfg, text);
+	if (by_name >= 0)
+		return by_name;
+	long n;
+	if (!value_whole(text, 0, CONFIG_MAX_PRESETS, &n))
+		return -1;
+	return n < cfg->preset_count ? (int)n : -1;
 }

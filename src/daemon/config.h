@@ -38,6 +38,8 @@
 #define CONFIG_MAX_PRESETS ENGINE_MAX_PRESETS
 #define CONFIG_NAME_MAX ENGINE_NAME_MAX
 #define CONFIG_PATH_MAX 512
+/* The path a config read from no file carries (config_defaults). */
+#define CONFIG_BUILTIN_NAME "(built-in defaults)"
 #define CONFIG_MAP_TEXT_MAX 2048
 #define CONFIG_BACKEND_MAX 16
 #define CONFIG_FILE_MAX (1 << 20)
@@ -81,6 +83,7 @@ struct daemon_config {
 	int realtime_priority;     /* 1..99, or -1: none */
 	bool lock_memory;
 	char control_socket[CONFIG_PATH_MAX]; /* "auto", "none" or a path */
+	char state_file[CONFIG_PATH_MAX];     /* "auto", "none" or a path */
 };
 
 struct config {
@@ -132,5 +135,8 @@ void config_io_spec(const struct config *cfg, struct midi_io_spec *out);
 /* Index of the output or preset with this name, or -1. */
 int config_find_output(const struct config *cfg, const char *name);
 int config_find_preset(const struct config *cfg, const char *name);
+/* A preset by name, or by number (0 is the main tuning), as `latticed
+ * preset` takes it; -1 if neither. */
+int config_find_preset_or_number(const struct config *cfg, const char *text);
 
 #endif

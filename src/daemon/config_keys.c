@@ -126,9 +126,9 @@ static bool read_client_name(const struct config_key *key, const char *text, voi
 	return true;
 }
 
-/* auto, none or an absolute path; sun_path holds 108 bytes on Linux,
- * terminator included (unix(7)) */
-static bool read_socket_path(const struct config_key *key, const char *text, void *field,
+/* auto, none or an absolute path of at most hi characters (for the
+ * socket: sun_path holds 108 bytes on Linux, terminator included, unix(7)) */
+static bool read_path(const struct config_key *key, const char *text, void *field,
 			     char *why, size_t why_size)
 {
 	(void)why;
@@ -139,6 +139,40 @@ static bool read_socket_path(const struct config_key *key, const char *text, voi
 	if (!word && (text[0] != '/' || strlen(text) > (size_t)key->hi || strlen(text) >= key->size))
 		return false;
 	text_copy(field, key->size, text);
+	return true;
+}
+
+/* none, "cc N" (optionally "latching") or "key N": one struct engine_binding */
+static bool read_binding(const struct config_key *key, const char *text, void *field,
+			 char *why, size_t why_size)
+{
+	(void)key;
+	(void)why;
+	(void)why_size;
+	struct engine_binding b;
+	memset(&b, 0, sizeof b); /* padding too: specs are compared with memcmp */
+	b.kind = ENGINE_BINDING_NONE;
+	b.number = -1;
+	char buf[CONFIG_VALUE_MAX];
+	char *words[4];
+	text_copy(buf, sizeof buf, text);
+	int n = text_words(buf, words, 3);
+	long number;
+	if (n == 1 && strcmp(words[0], "none") == 0) {
+		memcpy(field, &b, sizeof b);
+		return true;
+	}
+	if (n < 2 || n > 3)
+		return false;
+	bool is_cc = strcmp(words[0], "cc") == 0, is_key = strcmp(words[0], "key") == 0;
+	if (!(is_cc || is_key) || !value_whole(words[1], 0, is_cc ? 119 : 127, &number))
+		return false;
+	if (n == 3 && !(is_cc && strcmp(words[2], "latching") == 0))
+		return false;
+	b.kind = is_cc ? ENGINE_BINDING_CC : ENGINE_BINDING_KEY;
+	b.number = (int)number;
+	b.latching = n == 3;
+	memcpy(field, &b, sizeof b);
 	return true;
 }
 
@@ -171,6 +205,15 @@ static const struct config_word backends[] = {
 	{"auto", 0}, {"alsa", 0}, {"portmidi", 0}, {"raw", 0}, {"null", 0}, {NULL, 0},
 };
 static const struct config_word socket_words[] = {{"auto", 0}, {"none", 0}, {NULL, 0}};
+static const struct config_word control_channels[] = {
+	{"none", ENGINE_CONTROL_NONE}, {"playing", ENGINE_CONTROL_PLAYING}, {NULL, 0},
+};
+static const struct config_word step_ends[] = {{"stop", 0}, {"wrap", 1}, {NULL, 0}};
+
+/* a step, home or the panic: none, cc N [latching] or key N */
+#define BINDING(key, action)                                                                       \
+	{"control", key, CONFIG_OWN, "none", 0, 0, none_word, CONTROL(actions[action]), read_binding, \
+	 "none, cc N (a controller from 0 to 119; cc N latching for a latching pedal) or key N (a key from 0 to 127)"}
 
 static const struct config_key keys[] = {
 	{"lattice", "seeds", CONFIG_OWN, "1 3 5 7", 2, LATTICE_MAX_SEEDS, NULL, TUNING(lattice), read_seeds,
@@ -231,11 +274,11 @@ static const struct config_key keys[] = {
 	 "yes or no"},
 	{"output", "connect", CONFIG_CONNECT, "none", 0, 0, none_word, OUTPUT(connect), NULL,
 	 "none, or up to 8 port name patterns separated by commas, each at most 63 characters, e.g. FLUID Synth*"},
-	{"control", "channel", CONFIG_CHANNEL, "none", 1, 16, none_word, CONTROL(channel), NULL,
-	 "none, or a MIDI channel from 1 to 16 that is not retuned"},
+	{"control", "channel", CONFIG_CHANNEL, "none", 1, 16, control_channels, CONTROL(channel), NULL,
+	 "none, playing (the channels the player plays on), or a MIDI channel from 1 to 16 that is not retuned"},
 	{"control", "program_change", CONFIG_CHOICE, "preset", 0, 0, program_uses,
 	 CONTROL(program_selects_preset), NULL,
-	 "preset (a program change on the control channel picks preset N) or ignore"},
+	 "preset (a program change on the control channel picks preset N) or ignore (default preset; ignore with channel = playing)"},
 	{"control", "preset_cc", CONFIG_WHOLE, "none", 0, 119, none_word, CONTROL(preset_cc), NULL,
 	 "none, or a controller number from 0 to 119"},
 	{"control", "root_cc", CONFIG_WHOLE, "none", 0, 119, none_word, CONTROL(root_cc), NULL,
@@ -244,6 +287,14 @@ static const struct config_key keys[] = {
 	 "none, or the first of the keys that pick presets, 0 to 127"},
 	{"control", "root_keys", CONFIG_WHOLE, "none", 0, 127, none_word, CONTROL(root_keys), NULL,
 	 "none, or the first of the keys that move the 1/1, 0 to 127"},
+	BINDING("preset_next", ENGINE_ACTION_PRESET_NEXT),
+	BINDING("preset_previous", ENGINE_ACTION_PRESET_PREVIOUS),
+	BINDING("root_next", ENGINE_ACTION_ROOT_NEXT),
+	BINDING("root_previous", ENGINE_ACTION_ROOT_PREVIOUS),
+	BINDING("root_home", ENGINE_ACTION_ROOT_HOME),
+	BINDING("panic", ENGINE_ACTION_PANIC),
+	{"control", "step_ends", CONFIG_CHOICE, "stop", 0, 0, step_ends, CONTROL(wrap), NULL,
+	 "stop (a step past the last or before the first preset or root stays there) or wrap (it goes round)"},
 	{"daemon", "backend", CONFIG_CHOICE_TEXT, "auto", 0, 0, backends, DAEMON(backend), NULL,
 	 "auto (alsa if built, else portmidi, else null), alsa, portmidi, raw or null"},
 	{"daemon", "client_name", CONFIG_OWN, "latticed", 1, 63, NULL, DAEMON(client_name), read_client_name,
@@ -253,7 +304,9 @@ static const struct config_key keys[] = {
 	{"daemon", "lock_memory", CONFIG_YES_NO, "yes", 0, 0, NULL, DAEMON(lock_memory), NULL,
 	 "yes or no"},
 	{"daemon", "control_socket", CONFIG_OWN, "auto", 1, 107, socket_words, DAEMON(control_socket),
-	 read_socket_path, "auto, none, or an absolute path of at most 107 characters"},
+	 read_path, "auto, none, or an absolute path of at most 107 characters"},
+	{"daemon", "state_file", CONFIG_OWN, "auto", 1, CONFIG_PATH_MAX - 1, socket_words, DAEMON(state_file),
+	 read_path, "auto, none, or an absolute path of at most 511 characters"},
 };
 #define KEY_COUNT ((int)(sizeof keys / sizeof keys[0]))
 _Static_assert(sizeof keys / sizeof keys[0] <= CONFIG_KEY_MAX, "raise CONFIG_KEY_MAX");

@@ -23,7 +23,7 @@
 #include <stdbool.h>
 #include <stddef.h>
 
-#define CONFIG_KEY_MAX 48          /* rows the table may grow to */
+#define CONFIG_KEY_MAX 64          /* rows the table may grow to */
 #define CONFIG_WHY_MAX 384         /* one message body */
 
 enum config_type {

@@ -27,6 +27,7 @@
 #include "config.h"
 #include "control_commands.h"
 #include "control_path.h"
+#include "latticed/note_name.h"
 
 #define EXIT_USAGE 2
 #define REPLY_MAX (4 << 20)
@@ -211,13 +212,34 @@ static void print_output_load(struct json_object *o)
 	printf("\n");
 }
 
+/* One held note: where it came from, the preset and root it began under,
+ * its tone and what it sounds at (a ratio to the home 1/1, and Hz), where
+ * it went.  A note whose tuning was retired and freed shows '?'. */
+static void print_note(struct json_object *note)
+{
+	char name[NOTE_NAME_MAX];
+	struct json_object *sounds = member(note, "sounds"), *hz = sounds ? member(sounds, "hz") : NULL;
+	bool known = member(note, "tone") != NULL;
+	printf("    %3lld %2lld %3lld %-4s  %-12s %-9s %-10s %-9s %9s  ->  %2lld %3lld%s\n",
+	       (long long)num(note, "source"), (long long)num(note, "in_channel"),
+	       (long long)num(note, "in_key"), note_name((int)num(note, "in_key"), name, sizeof name),
+	       known ? str(note, "preset") : "?", known ? str(note, "root") : "?",
+	       known ? str(note, "tone") : "?", sounds && member(sounds, "ratio") ? str(sounds, "ratio") : "?",
+	       hz ? json_object_get_string(hz) : "?",
+	       (long long)num(note, "out_channel"), (long long)num(note, "out_key"),
+	       json_object_get_boolean(member(note, "ringing")) ? " (pedal)" : "");
+}
+
 static void print_status(struct json_object *st)
 {
 	printf("latticed %s, pid %lld, up ", str(st, "version"), (long long)num(st, "pid"));
 	struct json_object *up = member(st, "uptime_seconds");
 	print_duration(up ? json_object_get_double(up) : 0);
 	printf(", backend %s\n", str(st, "backend"));
-	printf("config:  %s\n", str(st, "config"));
+	if (strcmp(str(st, "config"), CONFIG_BUILTIN_NAME) == 0 && *str(st, "default_config"))
+		printf("config:  (built-in defaults: there is no %s)\n", str(st, "default_config"));
+	else
+		printf("config:  %s\n", str(st, "config"));
 	printf("control: %s\n", str(st, "control_socket"));
 	struct json_object *preset = member(st, "preset"), *root = member(st, "root");
 	struct json_object *presets = member(st, "presets");
@@ -269,18 +291,9 @@ static void print_status(struct json_object *st)
 			printf(", and %lld on pass-through channels", (long long)num(o, "passthrough_notes"));
 		printf("\n");
 		if (n)
-			printf("    src ch key  tone         ratio          cents  ->  ch key\n");
-		for (size_t k = 0; k < n; k++) {
-			struct json_object *note = json_object_array_get_idx(notes, k);
-			struct json_object *cents = member(note, "cents");
-			const char *tone = member(note, "tone") ? str(note, "tone") : "?";
-			printf("    %3lld %2lld %3lld  %-12s %-10s %9.3f  ->  %2lld %3lld%s\n",
-			       (long long)num(note, "source"), (long long)num(note, "in_channel"),
-			       (long long)num(note, "in_key"), tone, str(note, "ratio"),
-			       cents ? json_object_get_double(cents) : 0.0,
-			       (long long)num(note, "out_channel"), (long long)num(note, "out_key"),
-			       json_object_get_boolean(member(note, "ringing")) ? " (pedal)" : "");
-		}
+			printf("    src ch key name  preset       root      tone       sounds        Hz  ->  ch key\n");
+		for (size_t k = 0; k < n; k++)
+			print_note(json_object_array_get_idx(notes, k));
 	}
 }
 

@@ -1,5 +1,5 @@
 /*
- * control_cmd: `latticed status | panic | preset NAME | root N | reload`,
+ * control_cmd: `latticed status | panic | preset NAME | root TONE | reload`,
  * the client side of the control socket.
  */
 #ifndef LATTICED_CONTROL_CMD_H

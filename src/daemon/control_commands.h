@@ -1,7 +1,7 @@
 /*
  * control_commands: what a running daemon can be asked, defined once.
  *
- * Model: five commands (status, panic, preset NAME, root N, reload), each
+ * Model: five commands (status, panic, preset NAME, root TONE, reload), each
  * a request word on the control socket and a `latticed` command of the
  * same name, and one request with no command of its own: subscribe, which
  * turns the connection into a stream of events (subscription.c; `latticed
@@ -41,7 +41,7 @@ extern const struct control_command control_commands[CONTROL_KIND_COUNT];
 
 const struct control_command *control_command_find(const char *name);
 
-/* "status, panic, preset NAME, root N, reload or subscribe" into buf */
+/* "status, panic, preset NAME, root TONE, reload or subscribe" into buf */
 char *control_command_list(char *buf, size_t size);
 
 /*

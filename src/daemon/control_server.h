@@ -3,7 +3,7 @@
  * socket (mode 0660) served by the main thread.
  *
  * Protocol (documented in latticed(8)): a client sends one request per
- * line ("status", "panic", "preset NAME", "root N", "reload"); each gets
+ * line ("status", "panic", "preset NAME", "root TONE", "reload"); each gets
  * exactly one reply line, a JSON object with "ok": true or false.  Replies
  * come in request order; a client may send several requests on one
  * connection, and they are taken one at a time: the next line is handed

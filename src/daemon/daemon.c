@@ -3,7 +3,8 @@
  *
  * Start-up, in order (teardown is the reverse): config and tunings,
  * backend choice, the queues and eventfds, the engines, the backend's
- * ports, the control socket, memory locking, then the two MIDI threads
+ * ports, the control socket, where the state file says to resume
+ * (daemon_state.c), memory locking, then the two MIDI threads
  * (signals blocked in them) at real-time priority, and READY=1.  Each
  * output's synth set-up goes out when the backend reports it connected
  * (the first service_input reports what open() connected), so a synth
@@ -279,6 +280,9 @@ static void main_loop(struct daemon *d)
 		int control_ms = control_server_timeout_ms(&d->control, monotonic_ms());
 		if (control_ms >= 0 && control_ms < timeout_ms)
 			timeout_ms = control_ms;
+		int state_ms = daemon_state_timeout_ms(d);
+		if (state_ms >= 0 && state_ms < timeout_ms)
+			timeout_ms = state_ms;
 		int events_ms = subscription_timeout_ms(d, monotonic_ms());
 		if (events_ms >= 0 && events_ms < timeout_ms)
 			timeout_ms = events_ms;
@@ -299,6 +303,7 @@ static void main_loop(struct daemon *d)
 			log_print(LOG_LEVEL_INFO, "SIGHUP: reloading");
 			daemon_start_reload(d, -1);
 		}
+		daemon_state_save(d, false);
 		watchdog_tick(d);
 	}
 }
@@ -386,8 +391,7 @@ static void announce_running(struct daemon *d)
 		  d->backend->name, d->config_path[0] ? d->config_path : "(built-in defaults)", ports,
 		  d->control.listen_fd >= 0 ? d->control.path : "none");
 	notify_ready();
-	notify_status("Running: backend %s, outputs %s, preset %s", d->backend->name, ports,
-		      d->tunings->engine.presets[0].name);
+	notify_status("Running: backend %s, outputs %s, %s", d->backend->name, ports, d->state);
 }
 
 /* The orderly stop; a second SIGINT from now on ends the process at once. */
@@ -406,6 +410,7 @@ static void stop_after_signal(struct daemon *d)
 		  quit_requested == SIGINT ? "SIGINT" : "SIGTERM");
 	subscription_shutdown(d);
 	stop_threads(d);
+	daemon_state_save(d, true);
 	log_print(LOG_LEVEL_NOTICE, "stopped");
 }
 
@@ -459,6 +464,7 @@ int daemon_run(const struct daemon_options *options)
 		log_print(LOG_LEVEL_ERROR, "%s", err);
 		goto out_backend;
 	}
+	daemon_state_resume(&d); /* the engines are made, nothing has been sent */
 	if (d.cfg->daemon.lock_memory)
 		realtime_lock_memory();
 	install_signals(&d);

@@ -19,6 +19,7 @@
 #include "log_ring.h"
 #include "output_thread.h"
 #include "request.h"
+#include "state_file.h"
 #include "subscription.h"
 
 struct daemon {
@@ -46,6 +47,13 @@ struct daemon {
 	char reload_notes[512];              /* what needs a restart */
 	char state[REPLY_TEXT_MAX];          /* current preset and root */
 	sigset_t run_mask;                   /* signals unblocked inside ppoll */
+	/* the state file (daemon_state.c) */
+	char state_path[CONFIG_PATH_MAX];    /* empty: none is kept */
+	bool state_make_parents;
+	char state_config[CONFIG_PATH_MAX];  /* the config a state belongs to */
+	struct state state_next, state_written;
+	bool state_dirty, state_error_logged;
+	int64_t state_written_ms;
 };
 
 /* Logs a config report line by line; warnings as warnings, the rest at `errors`. */
@@ -61,6 +69,14 @@ void daemon_on_request(void *context, int id, const char *line);
 void daemon_handle_replies(struct daemon *d);
 /* Writes out the MIDI threads' log lines. */
 void daemon_drain_logs(struct daemon *d);
+
+/* The state file: resume before the MIDI threads start; each change of
+ * preset or root from the input thread; the write when due (now: at once);
+ * how long the loop may sleep before one is due (-1: none waits). */
+void daemon_state_resume(struct daemon *d);
+void daemon_state_changed(struct daemon *d, const struct reply *rep);
+void daemon_state_save(struct daemon *d, bool now);
+int daemon_state_timeout_ms(const struct daemon *d);
 
 /* Reload for client id (-1: SIGHUP): read and build here, swap in the input thread. */
 void daemon_start_reload(struct daemon *d, int id);

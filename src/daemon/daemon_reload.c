@@ -42,7 +42,7 @@ static void compare_for_restart(struct daemon *d, const struct config *now)
 	const struct daemon_config *a = &was->daemon, *b = &now->daemon;
 	if (strcmp(a->backend, b->backend) || strcmp(a->client_name, b->client_name) ||
 	    a->realtime_priority != b->realtime_priority || a->lock_memory != b->lock_memory ||
-	    strcmp(a->control_socket, b->control_socket))
+	    strcmp(a->control_socket, b->control_socket) || strcmp(a->state_file, b->state_file))
 		note_restart(d, "[daemon]");
 	if (!same_connect(&was->input.connect, &now->input.connect))
 		note_restart(d, "[input] connect");

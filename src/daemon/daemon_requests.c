@@ -78,10 +78,12 @@ void daemon_on_request(void *context, int id, const char *line)
 			r.number = -1;
 		post_or_fail(d, id, &r);
 	} else if (kind == CONTROL_ROOT) {
-		if (!control_command_number(arg, &r.number)) {
-			daemon_reply_simple(d, id, false, "root needs a number: 0 (home) or n (tone n-1 becomes 1/1)");
+		/* home, a number or a tone label: only the input thread knows the preset */
+		if (strlen(arg) >= sizeof r.text) {
+			daemon_reply_simple(d, id, false, "no tone has a label that long; expected home, a number or a tone label such as 1.5");
 			return;
 		}
+		memcpy(r.text, arg, strlen(arg) + 1);
 		r.kind = REQUEST_ROOT;
 		post_or_fail(d, id, &r);
 	} else if (kind == CONTROL_RELOAD) {
@@ -106,6 +108,7 @@ static void send_status(struct daemon *d, const struct reply *rep)
 		.pid = (int)getpid(),
 		.uptime_seconds = (double)(monotonic_ms() - d->started_ms) / 1000.0,
 		.config = d->config_path[0] ? d->config_path : "(built-in defaults)",
+		.default_config = d->options->default_config_path,
 		.backend = d->backend->name,
 		.control_socket = d->control.path,
 	};
@@ -141,6 +144,7 @@ void daemon_handle_replies(struct daemon *d)
 			snprintf(d->state, sizeof d->state, "%s", rep.text);
 			log_print(LOG_LEVEL_INFO, "now playing %s", rep.text);
 			notify_status("Running: %s", rep.text);
+			daemon_state_changed(d, &rep);
 			break;
 		}
 	}

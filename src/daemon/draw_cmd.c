@@ -16,17 +16,6 @@
 
 #include "smf_file.h"
 
-int draw_find_preset(const struct config *cfg, const char *text)
-{
-	int by_name = config_find_preset(cfg, text);
-	if (by_name >= 0)
-		return by_name;
-	if (!*text || strspn(text, "0123456789") != strlen(text) || strlen(text) > 4)
-		return -1;
-	int n = atoi(text);
-	return n < cfg->preset_count ? n : -1;
-}
-
 /* Wilson's names for the sets that have one. */
 static const char *set_name(int n, int k)
 {

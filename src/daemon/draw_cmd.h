@@ -36,9 +36,6 @@ struct draw_request {
 /* Writes the drawing; returns the exit status (0, or 1 with a message). */
 int draw_run(const struct draw_request *req);
 
-/* A preset by name, or by number (0 is the main tuning); -1 if neither. */
-int draw_find_preset(const struct config *cfg, const char *text);
-
 /* The heading both drawings share: "hexany: 2 of 4 seeds 1 3 5 7". */
 void draw_heading(char *buf, size_t size, const struct lattice *lat);
 /* "preset main, period 2/1, 1/1 is the reference pitch" */

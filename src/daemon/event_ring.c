@@ -10,6 +10,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "input_control.h"
 #include "input_thread.h"
 #include "output_thread.h"
 
@@ -103,7 +104,7 @@ static void tuning_event(const struct input_thread *t, struct ring_event *ev)
 	ev->presets = (uint16_t)t->tunings->engine.count;
 	ev->generation = t->reloads;
 	snprintf(ev->preset_name, sizeof ev->preset_name, "%s", engine_current_preset(e)->name);
-	input_root_label(e, ev->root_label, sizeof ev->root_label);
+	input_control_root_label(e, ev->root_label, sizeof ev->root_label);
 }
 
 void event_ring_tuning_changed(struct input_thread *t)

@@ -134,16 +134,16 @@ static void flush_store(struct input_thread *t, struct input_output *o)
 		want(o, LOW_WATER);
 }
 
-static bool is_state_command(const struct engine *e, const struct midi_msg *m)
-{
-	return midi_msg_is_channel(m) && midi_msg_channel(m) == engine_spec_of(e)->control.channel;
-}
-
-/* A cut-off output keeps controller values and tuning commands, nothing else. */
+/* A cut-off output keeps controller values and tuning commands, nothing
+ * else.  It takes a MIDI panic too, so its bindings stay in step with the
+ * other engines; what that panic ends is ended again for its synth when it
+ * recovers (ended_while_cut_off: All Notes Off on all 16 channels). */
 static void keep_while_cut_off(struct input_output *o, uint8_t source, const struct midi_msg *m)
 {
 	uint8_t type = midi_msg_type(m);
-	if (is_state_command(&o->engine, m)) {
+	enum engine_steer steer = engine_steers(&o->engine, m);
+	if (steer != ENGINE_STEER_NONE) {
+		o->ended_while_cut_off |= steer == ENGINE_STEER_PANIC;
 		engine_handle(&o->engine, source, m);
 		return;
 	}
@@ -411,26 +411,10 @@ static bool drain_backlog(struct input_thread *t)
 
 /* ---- outputs: recovery and connections -------------------------------------------- */
 
-static void recover(struct input_thread *t, struct input_output *o)
-{
-	if (fill_of(t, o) >= RECOVER_FILL) {
-		want(o, RECOVER_FILL);
-		return;
-	}
-	int ended = engine_held_notes(&o->engine);
-	o->cut_off = false;
-	engine_panic(&o->engine);
-	engine_start(&o->engine);
-	log_ring_post(&t->log, LOG_LEVEL_NOTICE,
-		      "output %s: its synth reads again; %d note(s) ended and its set-up sent again, "
-		      "and it hears the input again", o->name, ended);
-	t->wake_main = true;
-	flush_store(t, o);
-}
-
-/* After a synth went away: sustain and sostenuto up and All Notes Off on
- * all 16 channels, for what it may still sound from before (the engine
- * ends only what it knows of, on the channels it uses). */
+/* After a synth went away, or a panic while its output was cut off:
+ * sustain and sostenuto up and All Notes Off on all 16 channels, for what
+ * it may still sound from before (the engine ends only what it knows of,
+ * on the channels it uses). */
 static void all_notes_off_everywhere(struct input_thread *t, struct input_output *o)
 {
 	static const uint8_t controls[RESET_CONTROLS][2] = {{64, 0}, {66, 0}, {123, 0}};
@@ -441,6 +425,26 @@ static void all_notes_off_everywhere(struct input_thread *t, struct input_output
 				o->queued++;
 		}
 	t->wake_output = true;
+}
+
+static void recover(struct input_thread *t, struct input_output *o)
+{
+	if (fill_of(t, o) >= RECOVER_FILL) {
+		want(o, RECOVER_FILL);
+		return;
+	}
+	int ended = engine_held_notes(&o->engine);
+	o->cut_off = false;
+	engine_panic(&o->engine);
+	if (o->ended_while_cut_off)
+		all_notes_off_everywhere(t, o); /* what the MIDI panic ended unheard */
+	o->ended_while_cut_off = false;
+	engine_start(&o->engine);
+	log_ring_post(&t->log, LOG_LEVEL_NOTICE,
+		      "output %s: its synth reads again; %d note(s) ended and its set-up sent again, "
+		      "and it hears the input again", o->name, ended);
+	t->wake_main = true;
+	flush_store(t, o);
 }
 
 static void reconnect(struct input_thread *t, struct input_output *o)

@@ -20,6 +20,7 @@
 #include <string.h>
 #include <time.h>
 
+#include "input_control.h"
 #include "input_feed.h"
 #include "clock.h"
 #include "event_ring.h"
@@ -231,17 +232,6 @@ static void reply_done(struct input_thread *t, const struct request *r, bool ok,
 	post_reply(t, &rep);
 }
 
-void input_root_label(const struct engine *e, char *buf, size_t size)
-{
-	int root = engine_root(e);
-	if (root == 0) {
-		snprintf(buf, size, "home");
-		return;
-	}
-	const struct lattice *lat = engine_current_preset(e)->lattice;
-	lattice_label(&lat->spec, lat->tones[root - 1].seeds, buf, size);
-}
-
 /* Tells the main thread (log line, systemd status) when the tuning moved. */
 static void check_tuning_state(struct input_thread *t)
 {
@@ -256,9 +246,9 @@ static void check_tuning_state(struct input_thread *t)
 	memset(&rep, 0, sizeof rep);
 	rep.kind = REPLY_TUNING_STATE;
 	rep.ok = true;
-	char label[SNAPSHOT_LABEL_MAX];
-	input_root_label(e, label, sizeof label);
-	snprintf(rep.text, sizeof rep.text, "preset %s, root %s", engine_current_preset(e)->name, label);
+	snprintf(rep.preset, sizeof rep.preset, "%s", engine_current_preset(e)->name);
+	input_control_root_label(e, rep.root, sizeof rep.root);
+	snprintf(rep.text, sizeof rep.text, "preset %s, root %.240s", rep.preset, rep.root);
 	post_reply(t, &rep);
 	event_ring_tuning_changed(t);
 }
@@ -331,15 +321,21 @@ static void swap_tunings(struct input_thread *t, const struct request *r)
 	}
 	struct retired_tunings *old = &t->retired[t->retired_count++];
 	old->set = t->tunings;
+	const struct engine *first = &t->outputs[0].engine;
+	char was_preset[ENGINE_NAME_MAX], was_root[LATTICE_LABEL_MAX], kept_text[REPLY_TEXT_MAX];
+	snprintf(was_preset, sizeof was_preset, "%s", engine_current_preset(first)->name);
+	input_control_root_label(first, was_root, sizeof was_root);
+	enum engine_kept kept = ENGINE_KEPT_PRESET_AND_ROOT;
 	for (int k = 0; k < t->output_count; k++) {
 		old->serial[k] = engine_serial(&t->outputs[k].engine);
-		engine_replace_tunings(&t->outputs[k].engine, &r->tunings->engine);
+		kept = engine_replace_tunings(&t->outputs[k].engine, &r->tunings->engine);
 	}
 	t->tunings = r->tunings;
 	t->reloads++;
 	event_ring_reloaded(t);
-	reply_done(t, r, true, "%d preset(s), now on preset %s", t->tunings->engine.count,
-		   engine_current_preset(&t->outputs[0].engine)->name);
+	t->last_preset = -1; /* the same numbers may name another preset or tone now */
+	input_control_kept_text(kept, was_preset, was_root, first, kept_text, sizeof kept_text);
+	reply_done(t, r, true, "%d preset(s), %s", t->tunings->engine.count, kept_text);
 }
 
 /* Posts back retired sets whose notes have all ended. */
@@ -401,7 +397,7 @@ static void fill_snapshot(struct input_thread *t, struct status_snapshot *s)
 		so->preset = engine_preset(e);
 		snprintf(so->preset_name, sizeof so->preset_name, "%s", engine_current_preset(e)->name);
 		so->root_slot = engine_root(e);
-		input_root_label(e, so->root_label, sizeof so->root_label);
+		input_control_root_label(e, so->root_label, sizeof so->root_label);
 		so->stats = *engine_stats(e);
 		so->queued = o->queued;
 		so->queue_drops = o->queue_drops;
@@ -438,6 +434,7 @@ static void fill_snapshot(struct input_thread *t, struct status_snapshot *s)
 					lattice_label(&p->lattice->spec, tone->seeds, sn->label, sizeof sn->label);
 					ratio_format(tone->ratio, sn->ratio, sizeof sn->ratio);
 					sn->cents = tone->cents;
+					snapshot_note_sounds(sn, p, &n);
 				}
 			}
 		}
@@ -498,18 +495,18 @@ static bool handle_request(struct input_thread *t, const struct request *r)
 		break;
 	}
 	case REQUEST_ROOT: {
-		int tones = engine_current_preset(first)->lattice->tone_count;
-		if (r->number < 0 || r->number > tones) {
-			reply_done(t, r, false, "root %d is out of range, expected 0 (home) to %d: preset %s has %d tones",
-				   r->number, tones, engine_current_preset(first)->name, tones);
+		int slot;
+		char why[REPLY_TEXT_MAX];
+		if (!input_control_root_slot(first, r, &slot, why, sizeof why)) {
+			reply_done(t, r, false, "%s", why);
 			break;
 		}
 		if (!feed_room_everywhere(t, COMMAND_SLOTS))
 			return false;
 		for (int k = 0; k < t->output_count; k++)
-			(void)engine_select_root(&t->outputs[k].engine, r->number);
+			(void)engine_select_root(&t->outputs[k].engine, slot);
 		char label[SNAPSHOT_LABEL_MAX];
-		input_root_label(first, label, sizeof label);
+		input_control_root_label(first, label, sizeof label);
 		reply_done(t, r, true, "root %s (for new notes)", label);
 		break;
 	}
@@ -606,6 +603,7 @@ void *input_thread_run(void *arg)
 		take_requests(t);
 
 		report_notices(t);
+		input_control_report(t);
 		check_tuning_state(t);
 		event_ring_service(t);
 		int64_t now = monotonic_ms();

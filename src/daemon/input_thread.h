@@ -93,6 +93,7 @@ struct input_output {                /* one output, as the input thread sees it 
 	size_t want;                     /* wake when the ring's fill is below this */
 	int64_t waiting_since_ms;        /* a message has waited for room here since */
 	bool cut_off;                    /* fell behind: no input until its ring drains */
+	bool ended_while_cut_off;        /* a MIDI panic came meanwhile: end all 16 channels */
 	uint64_t cut_offs;
 	bool was_gone;                   /* OUTPUT_GONE since its last connection */
 	bool reconnect_pending;          /* OUTPUT_CONNECTED still to handle */
@@ -146,7 +147,9 @@ struct input_thread {
 	struct retired_tunings retired[INPUT_RETIRED_MAX];
 	int outbox_count;
 	struct reply outbox[INPUT_OUTBOX_MAX];
-	int last_preset, last_root;
+	int last_preset, last_root;      /* -1: post the tuning state at the next check */
+	int64_t miss_logged_ms;          /* control misses (input_control.c) */
+	uint32_t control_panics_logged;
 	int64_t retired_checked_ms;
 	uint64_t inputs_lost, inputs_lost_logged; /* INPUT_LOST reports */
 	int64_t input_lost_logged_ms;
@@ -185,8 +188,5 @@ bool input_thread_post(struct input_thread *t, const struct request *r);
 
 /* Main thread: the next reply, false if none. */
 bool input_thread_take_reply(struct input_thread *t, struct reply *out);
-
-/* "home", or the seeds of the tone that is 1/1 now. */
-void input_root_label(const struct engine *e, char *buf, size_t size);
 
 #endif

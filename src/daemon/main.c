@@ -11,8 +11,10 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "cli_common.h"
 #include "config.h"
 #include "control_cmd.h"
+#include "connect_cmd.h"
 #include "control_commands.h"
 #include "daemon.h"
 #include "draw_cmd.h"
@@ -24,123 +26,7 @@
 #include "view_cmd.h"
 #endif
 
-#define EXIT_USAGE 2
-
 static const char default_config_path[] = LATTICED_SYSCONFDIR "/latticed/latticed.conf";
-
-static void print_report(const struct config_report *r)
-{
-	if (r->length)
-		fprintf(stderr, "%.*s", (int)r->length, r->text);
-}
-
-/*
- * Loads --config FILE, or the system config when it exists, or the
- * built-in defaults (the same values as the shipped file).
- */
-static int load_config(const char *path, struct config *cfg)
-{
-	struct config_report report;
-	bool ok = config_load_or_defaults(path, default_config_path, cfg, &report, NULL);
-	print_report(&report);
-	return ok ? 0 : 1;
-}
-
-static int build_tuning(const struct config *cfg, int preset, struct tuning **out)
-{
-	struct config_report report = {0};
-	struct tuning *t = malloc(sizeof *t);
-	if (!t) {
-		fprintf(stderr, "latticed: out of memory building the tuning\n");
-		return 1;
-	}
-	bool ok = tuning_build(cfg, preset, t, &report);
-	print_report(&report);
-	if (!ok) {
-		free(t);
-		return 1;
-	}
-	*out = t;
-	return 0;
-}
-
-static void table_usage(FILE *f)
-{
-	fprintf(f,
-		"Usage: latticed table [--config FILE] [--preset NAME] [--json]\n"
-		"Print the lattice (tones, chords) and what every key plays.\n"
-		"\n"
-		"  -c, --config FILE  read FILE instead of %s\n"
-		"  -p, --preset NAME  show preset NAME instead of the main tuning\n"
-		"  -j, --json         one JSON object instead of the text table\n"
-		"  -h, --help         show this help\n",
-		default_config_path);
-}
-
-static int command_table(int argc, char **argv)
-{
-	static const struct option options[] = {
-		{"config", required_argument, NULL, 'c'},
-		{"json", no_argument, NULL, 'j'},
-		{"preset", required_argument, NULL, 'p'},
-		{"help", no_argument, NULL, 'h'},
-		{NULL, 0, NULL, 0},
-	};
-	const char *config_path = NULL, *preset_name = NULL;
-	bool json = false;
-	int opt;
-	while ((opt = getopt_long(argc, argv, "c:jp:h", options, NULL)) != -1) {
-		switch (opt) {
-		case 'c':
-			config_path = optarg;
-			break;
-		case 'p':
-			preset_name = optarg;
-			break;
-		case 'j':
-			json = true;
-			break;
-		case 'h':
-			table_usage(stdout);
-			return 0;
-		default:
-			fprintf(stderr, "Try 'latticed table --help'.\n");
-			return EXIT_USAGE;
-		}
-	}
-	if (optind < argc) {
-		fprintf(stderr, "latticed table: unexpected argument '%s'\nTry 'latticed table --help'.\n",
-			argv[optind]);
-		return EXIT_USAGE;
-	}
-
-	struct config *cfg = malloc(sizeof *cfg);
-	struct tuning *t = NULL;
-	int rc = cfg ? load_config(config_path, cfg) : 1;
-	int preset = 0;
-	if (rc == 0 && preset_name) {
-		preset = config_find_preset(cfg, preset_name);
-		if (preset < 0) {
-			fprintf(stderr, "latticed table: %s has no preset '%s'\n", cfg->path, preset_name);
-			rc = 1;
-		}
-	}
-	if (rc == 0)
-		rc = build_tuning(cfg, preset, &t);
-	if (rc == 0) {
-		if (json)
-			rc = table_print_json(stdout, cfg, preset, t) == 0 ? 0 : 1;
-		else
-			table_print_text(stdout, cfg, preset, t);
-		if (fflush(stdout) != 0) {
-			perror("latticed: writing the table");
-			rc = 1;
-		}
-	}
-	free(t);
-	free(cfg);
-	return rc;
-}
 
 static void draw_usage(FILE *f)
 {
@@ -232,18 +118,11 @@ static int command_draw(int argc, char **argv)
 
 	struct config *cfg = malloc(sizeof *cfg);
 	struct tuning *t = NULL;
-	int rc = cfg ? load_config(config_path, cfg) : 1;
-	if (rc == 0 && preset_name) {
-		req.preset = draw_find_preset(cfg, preset_name);
-		if (req.preset < 0) {
-			fprintf(stderr, "latticed draw: %s has no preset '%s', expected a preset name"
-				" or a number from 0 to %d\n", cfg->path, preset_name,
-				cfg->preset_count - 1);
-			rc = 1;
-		}
-	}
+	int rc = cfg ? cli_load_config(config_path, default_config_path, cfg) : 1;
+	if (rc == 0 && preset_name && (req.preset = cli_find_preset("draw", cfg, preset_name)) < 0)
+		rc = 1;
 	if (rc == 0)
-		rc = build_tuning(cfg, req.preset, &t);
+		rc = cli_build_tuning(cfg, req.preset, &t);
 	if (rc == 0) {
 		req.cfg = cfg;
 		req.tuning = t;
@@ -322,7 +201,7 @@ static int command_render(int argc, char **argv)
 	struct config *cfg = malloc(sizeof *cfg);
 	struct tuning_set tunings = {0};
 	bool built = false;
-	int rc = cfg ? load_config(config_path, cfg) : 1;
+	int rc = cfg ? cli_load_config(config_path, default_config_path, cfg) : 1;
 	int output = 0;
 	if (rc == 0 && output_name) {
 		output = config_find_output(cfg, output_name);
@@ -334,7 +213,7 @@ static int command_render(int argc, char **argv)
 	if (rc == 0) {
 		struct config_report report = {0};
 		built = tuning_set_build(cfg, &tunings, &report);
-		print_report(&report);
+		cli_print_report(&report);
 		rc = built ? 0 : 1;
 	}
 	if (rc == 0) {
@@ -435,6 +314,11 @@ static int command_ports(int argc, char **argv)
 	return daemon_command(argc, argv, "ports");
 }
 
+static int command_table(int argc, char **argv)
+{
+	return table_command(argc, argv, default_config_path);
+}
+
 /* A command of our own, or one of the control commands (control_commands.h),
  * whose name and summary come from there. */
 struct command {
@@ -452,6 +336,7 @@ static const struct command commands[] = {
 	{.control = &control_commands[CONTROL_ROOT]},
 	{.control = &control_commands[CONTROL_RELOAD]},
 	{"ports", command_ports, "list the MIDI ports latticed can connect to", NULL},
+	{"connect", connect_command, "connect two MIDI ports by name (ALSA sequencer)", NULL},
 	{"table", command_table, "print the lattice, its chords and the key map", NULL},
 	{"render", command_render, "retune a MIDI file", NULL},
 	{"draw", command_draw, "draw the lattice or a keyboard chart as SVG", NULL},

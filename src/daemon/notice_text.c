@@ -5,6 +5,8 @@
 
 #include <stdio.h>
 
+#include "config_control.h"
+
 #define STRINGIFY(x) #x
 #define TEXT_OF(x) STRINGIFY(x)
 
@@ -52,4 +54,60 @@ void notice_text_lines(uint32_t notices, const struct engine_stats *stats, int b
 			 advice ? "; " : "", advice ? r->advice : "");
 		line(context, text);
 	}
+}
+
+/* ---- control misses ---------------------------------------------------------- */
+
+/* "CC 21 value 9 on channel 16" or "key 48 on channel 1" */
+static void what_came(const struct engine_control_miss *m, bool is_cc, char *buf, size_t size)
+{
+	if (m->kind == ENGINE_MISS_PROGRAM)
+		snprintf(buf, size, "program change %u on channel %u", m->number, m->channel + 1u);
+	else if (is_cc)
+		snprintf(buf, size, "CC %u value %u on channel %u", m->number, m->value, m->channel + 1u);
+	else
+		snprintf(buf, size, "key %u on channel %u", m->number, m->channel + 1u);
+}
+
+void notice_text_control_miss(const struct engine_control_miss *m,
+			      const struct engine_control_spec *c, char *buf, size_t size)
+{
+	char came[64], why[160];
+	bool is_cc = m->kind == ENGINE_MISS_PRESET_CC || m->kind == ENGINE_MISS_ROOT_CC ||
+		     (m->kind == ENGINE_MISS_STEP_END && (unsigned)m->action < ENGINE_ACTION_COUNT &&
+		      c->actions[m->action].kind == ENGINE_BINDING_CC);
+	what_came(m, is_cc, came, sizeof came);
+	const char *by = "";
+	switch (m->kind) {
+	case ENGINE_MISS_PROGRAM:
+	case ENGINE_MISS_PRESET_CC:
+		by = m->kind == ENGINE_MISS_PROGRAM ? "program_change" : "preset_cc";
+		snprintf(why, sizeof why, "there %s %d preset%s, 0 to %d; still on preset %s",
+			 m->presets == 1 ? "is" : "are", m->presets, m->presets == 1 ? "" : "s",
+			 m->presets - 1, m->preset_name);
+		break;
+	case ENGINE_MISS_ROOT_CC:
+	case ENGINE_MISS_ROOT_KEY: {
+		bool key = m->kind == ENGINE_MISS_ROOT_KEY;
+		by = key ? "root_keys" : "root_cc";
+		int first = key ? c->root_keys : 0;
+		snprintf(why, sizeof why, "preset %s has %d tones, %s %d (home) to %d; the root stays",
+			 m->preset_name, m->tones, key ? "keys" : "values", first, first + m->tones);
+		break;
+	}
+	case ENGINE_MISS_STEP_END: {
+		bool presets = m->action == ENGINE_ACTION_PRESET_NEXT ||
+			       m->action == ENGINE_ACTION_PRESET_PREVIOUS;
+		bool forward = m->action == ENGINE_ACTION_PRESET_NEXT || m->action == ENGINE_ACTION_ROOT_NEXT;
+		by = config_action_key(m->action);
+		if (presets)
+			snprintf(why, sizeof why, "already on the %s preset (%s, %d of %d) and step_ends = stop",
+				 forward ? "last" : "first", m->preset_name, m->preset + 1, m->presets);
+		else
+			snprintf(why, sizeof why, "already %s of preset %s and step_ends = stop",
+				 forward ? "at its last tone" : "at home", m->preset_name);
+		break;
+	}
+	}
+	snprintf(buf, size, "control: %s (%s) selects nothing: %s", came, by, why);
 }

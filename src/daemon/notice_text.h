@@ -26,4 +26,11 @@ typedef void (*notice_line_fn)(void *context, const char *line);
 void notice_text_lines(uint32_t notices, const struct engine_stats *stats, int bend_range,
 		       bool advice, notice_line_fn line, void *context);
 
+/* One line for a control message that selected nothing (NOTICE_CONTROL_MISSED,
+ * engine_take_control_miss): what came, why nothing, where it stayed; c
+ * says what each controller and key is bound to.  The count is the
+ * caller's to add. */
+void notice_text_control_miss(const struct engine_control_miss *m,
+			      const struct engine_control_spec *c, char *buf, size_t size);
+
 #endif

@@ -38,8 +38,8 @@ enum guard_class guard_classify(const struct engine *e, const struct midi_msg *m
 {
 	if (!midi_msg_is_channel(m))
 		return m->status == MIDI_RESET ? GUARD_MUST : GUARD_SHED;
-	if (midi_msg_channel(m) == engine_spec_of(e)->control.channel)
-		return GUARD_MUST;
+	if (engine_steers(e, m) != ENGINE_STEER_NONE)
+		return GUARD_MUST; /* every output must steer alike, and a panic must end notes */
 	switch (midi_msg_type(m)) {
 	case MIDI_NOTE_ON:
 		return m->data[1] > 0 ? GUARD_NOTE_ON : GUARD_MUST;
@@ -67,7 +67,10 @@ int guard_must_slots(const struct engine *e, const struct midi_msg *m)
 {
 	if (!midi_msg_is_channel(m))
 		return guard_end_slots(e) + GUARD_SETUP_SLOTS; /* System Reset: panic, set-up */
-	if (midi_msg_channel(m) == engine_spec_of(e)->control.channel)
+	enum engine_steer steer = engine_steers(e, m);
+	if (steer == ENGINE_STEER_PANIC)
+		return guard_end_slots(e);
+	if (steer == ENGINE_STEER_TUNING)
 		return COMMAND_SLOTS;
 	if (midi_msg_type(m) != MIDI_CONTROL)
 		return 2; /* a note-off */

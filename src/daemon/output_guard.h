@@ -6,8 +6,10 @@
  * (guard_classify, which looks at the message and at that output's engine):
  *   - MUST: it can end a sound or steers what ends one: note-offs (a note-on
  *     with velocity 0 is one), pedal releases, the RPN/NRPN machinery,
- *     channel mode messages, anything on the control channel, System
- *     Reset.  Never left out.  guard_must_slots says how many queue slots
+ *     channel mode messages, anything that steers the tuning (engine_steers:
+ *     all of the control channel, a bound controller or key, a reserved key,
+ *     so every output steps alike; the panic binding needs room for a whole
+ *     panic), System Reset.  Never left out.  guard_must_slots says how many queue slots
  *     the engine can need for it at most, from what the engine holds now.
  *   - NOTE_ON: a new note.  Left out when the queue is above its high-water
  *     mark: the engine never sees it, so its note-off later finds no note

@@ -354,6 +354,11 @@ static bool perform(struct render *r, const struct engine_spec *spec,
 	sum->tuning_changes += s->tuning_changes;
 	sum->messages_out += s->messages_out;
 	r->report->notices |= engine_take_notices(r->engine);
+	struct engine_control_miss miss;
+	if (engine_take_control_miss(r->engine, &miss)) {
+		r->report->miss = miss;
+		r->report->misses += miss.count;
+	}
 	r->report->performances++;
 	if (r->out_of_memory)
 		return core_fail(err, "", "out of memory building the output");
@@ -486,6 +491,12 @@ static void print_warnings(const char *in_name, const struct smf *in,
 			rep->zero_tempos > 1 ? ", as are the other tempo 0 events" : "");
 	notice_text_lines(rep->notices, &rep->engine, spec->output.bend_range, false, print_notice,
 			  (void *)in_name);
+	if (rep->misses) {
+		char line[320];
+		notice_text_control_miss(&rep->miss, &spec->control, line, sizeof line);
+		fprintf(stderr, "latticed render: %s: warning: %s (%u such message%s in the file)\n", in_name,
+			line, rep->misses, rep->misses == 1 ? "" : "s");
+	}
 }
 
 static void print_summary(const char *in_name, const char *out_name,

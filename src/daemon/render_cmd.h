@@ -58,6 +58,8 @@ struct render_report {
 	char left_out_text[RENDER_LEFT_OUT_SHOWN][RENDER_LINE_MAX]; /* "byte 12: ..." */
 	struct engine_stats engine;  /* summed over the performances */
 	uint32_t notices;            /* engine_notice flags, ORed */
+	struct engine_control_miss miss; /* the last control message that selected nothing */
+	uint32_t misses;             /* how many did */
 };
 
 /*

@@ -20,7 +20,7 @@ struct status_snapshot;
 enum request_kind {
 	REQUEST_PANIC,            /* every note off on every output */
 	REQUEST_PRESET,           /* by name, or by index when name is empty */
-	REQUEST_ROOT,             /* number: 0 home, n: tone n-1 becomes 1/1 */
+	REQUEST_ROOT,             /* text: home, a tone label, or number: 0 home, n: tone n-1 is 1/1 */
 	REQUEST_TUNINGS,          /* swap in `tunings` (a reload) */
 	REQUEST_SNAPSHOT,         /* fill `snapshot` */
 	REQUEST_QUIT,             /* panic, stop reading, exit the loop */
@@ -31,6 +31,7 @@ struct request {
 	int id;
 	int number;
 	char name[ENGINE_NAME_MAX];
+	char text[LATTICE_LABEL_MAX];   /* REQUEST_ROOT: the argument as written */
 	struct tuning_set *tunings;
 	struct status_snapshot *snapshot;
 };
@@ -42,7 +43,7 @@ enum reply_kind {
 	REPLY_TUNING_STATE,       /* preset or root changed (from MIDI too) */
 };
 
-#define REPLY_TEXT_MAX 160
+#define REPLY_TEXT_MAX 320
 
 struct reply {
 	enum reply_kind kind;
@@ -50,6 +51,9 @@ struct reply {
 	int id;
 	bool ok;
 	char text[REPLY_TEXT_MAX];
+	/* REPLY_TUNING_STATE: where new notes play, for the state file */
+	char preset[ENGINE_NAME_MAX];
+	char root[LATTICE_LABEL_MAX];   /* a tone label, or "home" */
 	struct tuning_set *tunings;
 	struct status_snapshot *snapshot;
 };

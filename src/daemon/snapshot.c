@@ -7,6 +7,22 @@
 #include <json-c/json.h>
 #include <stdio.h>
 
+#include "latticed/retune_table.h"
+
+void snapshot_note_sounds(struct snapshot_note *sn, const struct engine_preset *p,
+			  const struct engine_note_info *n)
+{
+	const struct lattice *lat = p->lattice;
+	if (n->root > 0 && n->root <= lat->tone_count)
+		lattice_label(&lat->spec, lat->tones[n->root - 1].seeds, sn->root, sizeof sn->root);
+	else
+		snprintf(sn->root, sizeof sn->root, "home");
+	struct ratio r;
+	if (!retune_sounding_ratio(lat, n->tone, n->period, n->root, &r))
+		return;
+	ratio_format(r, sn->sounds, sizeof sn->sounds);
+	sn->hz = p->keymap->spec.root_hz * ratio_to_double(r);
+}
 
 static struct json_object *fixed(double value, int decimals)
 {
@@ -46,6 +62,11 @@ static struct json_object *note_json(const struct snapshot_note *n)
 		json_object_object_add(o, "tone", json_object_new_string(n->label));
 		json_object_object_add(o, "ratio", json_object_new_string(n->ratio));
 		json_object_object_add(o, "cents", fixed(n->cents, 3));
+		json_object_object_add(o, "root", json_object_new_string(n->root));
+		struct json_object *sounds = json_object_new_object();
+		json_object_object_add(sounds, "ratio", n->sounds[0] ? json_object_new_string(n->sounds) : NULL);
+		json_object_object_add(sounds, "hz", n->hz > 0 ? fixed(n->hz, 3) : NULL);
+		json_object_object_add(o, "sounds", sounds);
 	} else {
 		json_object_object_add(o, "tone", NULL);
 	}
@@ -95,6 +116,8 @@ struct json_object *snapshot_json(const struct status_snapshot *s, const struct 
 	json_object_object_add(o, "pid", json_object_new_int(x->pid));
 	json_object_object_add(o, "uptime_seconds", fixed(x->uptime_seconds, 1));
 	json_object_object_add(o, "config", json_object_new_string(x->config));
+	json_object_object_add(o, "default_config",
+			       x->default_config ? json_object_new_string(x->default_config) : NULL);
 	json_object_object_add(o, "backend", json_object_new_string(x->backend));
 	json_object_object_add(o, "control_socket", json_object_new_string(x->control_socket));
 	if (s->output_count > 0) {

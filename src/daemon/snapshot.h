@@ -28,6 +28,9 @@ struct snapshot_note {
 	char label[SNAPSHOT_LABEL_MAX];       /* the tone's seeds, e.g. 1.3 */
 	char ratio[RATIO_TEXT_MAX];
 	double cents;                         /* the tone above 1/1, within the period */
+	char root[SNAPSHOT_LABEL_MAX];        /* the root it began under: "home" or a label */
+	char sounds[RATIO_TEXT_MAX];          /* what it sounds at: ratio to the home 1/1 */
+	double hz;                            /* ... and in Hz (no output offset); 0 unknown */
 	int period;
 	double pitch;                         /* exact pitch as a note number */
 };
@@ -84,9 +87,15 @@ struct snapshot_extra {
 	int pid;
 	double uptime_seconds;
 	const char *config;
+	const char *default_config;   /* the file read when none is given */
 	const char *backend;
 	const char *control_socket;
 };
+
+/* Fills the note's root, sounds and hz from the preset it began under
+ * (input thread; no allocation). */
+void snapshot_note_sounds(struct snapshot_note *sn, const struct engine_preset *p,
+			  const struct engine_note_info *n);
 
 struct json_object;
 

@@ -1,431 +1,207 @@
 /*
- * table_cmd: prints a built tuning for people (aligned text) or programs
- * (one JSON object, written with json-c).
+ * table_cmd: `latticed table`, what the config's tuning plays, without a
+ * daemon: the text table, --json, --keys (one keyboard period for a
+ * player) or --syx FILE (an MTS file for a synth to keep).
  *
- * The text form is read on a laptop before a show: what each key plays,
- * how far it sits from the 12-TET key it goes out on, and the bend or MTS
- * word each output will send.  Keys that play nothing are summarised as
- * ranges instead of filling the screen.
+ * --preset and --root pick the tuning as `latticed preset` and `latticed
+ * root` would on a running daemon, so every form previews what the daemon
+ * plays after them: the key map is built for the preset, then every
+ * sounding key moved by the root's shift (keymap_shift), which is what
+ * the engine's retune table does.
  */
 #include "table_cmd.h"
 
-#include <json-c/json.h>
+#include <getopt.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
-#include "latticed/pitch.h"
+#include "cli_common.h"
+#include "config_values.h"
 #include "latticed/retune_table.h"
+#include "table_keys.h"
+#include "table_print.h"
+#include "table_syx.h"
 
-static const char *const note_names[12] = {
-	"C", "C#", "D", "D#", "E", "F", "F#", "G", "G#", "A", "A#", "B",
+enum table_form { FORM_TEXT, FORM_JSON, FORM_KEYS, FORM_SYX };
+
+struct table_options {
+	const char *config_path, *preset, *root;
+	enum table_form form;
+	int forms_given;
+	bool syx_option_given;         /* --single-note, --device, --program */
+	struct table_syx syx;
 };
 
-/* "A3": key 60 is C4, the scientific-pitch convention (69 = A4 = 440 Hz). */
-static char *key_name(int key, char *buf, size_t size)
+static void usage(FILE *f, const char *default_config)
 {
-	snprintf(buf, size, "%s%d", note_names[key % 12], key / 12 - 1);
-	return buf;
+	fprintf(f,
+		"Usage: latticed table [--config FILE] [--preset NAME|N] [--root N|LABEL|home]\n"
+		"                      [--json | --keys | --syx FILE [--single-note] [--device N|all]\n"
+		"                      [--program N]]\n"
+		"Print the lattice (tones, chords) and what every key plays, or write it as MTS.\n"
+		"\n"
+		"  -c, --config FILE     read FILE instead of %s\n"
+		"  -p, --preset NAME|N   show preset NAME, or number N (0 is the main tuning)\n"
+		"  -r, --root ROOT       as after 'latticed root ROOT': N makes tone N-1 the 1/1,\n"
+		"                        a LABEL (e.g. 1.5) that tone; home (or 0): no change\n"
+		"  -j, --json            one JSON object instead of the text table\n"
+		"  -k, --keys            one keyboard period, key by key, and the keys of each chord\n"
+		"  -s, --syx FILE        write the tuning as an MTS bulk tuning dump, a .syx file\n"
+		"                        (replaced whole; a FIFO or device written to; '-': stdout)\n"
+		"      --single-note     --syx: single-note tuning changes instead of a bulk dump\n"
+		"      --device N|all    --syx: the SysEx device ID, 0 to 126, or all (default all)\n"
+		"      --program N       --syx: the tuning program, 0 to 127 (default 0)\n"
+		"  -h, --help            show this help\n",
+		default_config);
 }
 
-static bool output_uses_bend(const struct output_config *o)
-{
-	return retune_method_bends_notes(o->engine.method);
-}
+enum { OPT_SINGLE = 256, OPT_DEVICE, OPT_PROGRAM };
 
-/* Each output's view of the key map (its cents offset applied), built once
- * per print: what the engine will hold for it. */
-static struct retune_table output_tables[CONFIG_MAX_OUTPUTS]; /* single-threaded command */
-
-static void build_output_tables(const struct config *cfg, const struct keymap *map)
+/* --device and --program; false after saying what was expected. */
+static bool read_number(int opt, const char *arg, struct table_syx *syx)
 {
-	for (int o = 0; o < cfg->output_count; o++)
-		retune_table_build(&output_tables[o], map, cfg->outputs[o].engine.cents_offset);
-}
-
-/* The bend output number o sends for a key: its own offset, range and factor. */
-static struct bend output_bend(const struct config *cfg, int o, int key)
-{
-	const struct output_config *out = &cfg->outputs[o];
-	const struct retune_key *rk = &output_tables[o].keys[key];
-	return pitch_bend_for_cents(rk->cents, out->engine.bend_range, out->engine.bend_played);
-}
-
-static void print_seeds(FILE *f, const struct lattice_spec *spec)
-{
-	for (int i = 0; i < spec->seed_count; i++)
-		fprintf(f, "%s%s", i ? " " : "", spec->seed_text[i]);
-}
-
-static void print_key_ranges(FILE *f, const struct keymap *map,
-			     enum key_state state, const char *what)
-{
-	int printed = 0;
-	for (int k = 0; k < KEYMAP_KEYS; k++) {
-		if (map->keys[k].state != state)
-			continue;
-		int last = k;
-		while (last + 1 < KEYMAP_KEYS && map->keys[last + 1].state == state)
-			last++;
-		if (printed == 0)
-			fprintf(f, "  %s: ", what);
-		if (last == k)
-			fprintf(f, "%s%d", printed ? ", " : "", k);
-		else
-			fprintf(f, "%s%d-%d", printed ? ", " : "", k, last);
-		printed++;
-		k = last;
+	long n;
+	if (opt == OPT_DEVICE && strcmp(arg, "all") == 0) {
+		syx->device = TUNING_DUMP_ALL_DEVICES;
+		return true;
 	}
-	if (printed)
-		fputc('\n', f);
-}
-
-static void print_lattice(FILE *f, const struct config *cfg, int preset, const struct lattice *lat)
-{
-	const struct lattice_spec *spec = &lat->spec;
-	char label[LATTICE_LABEL_MAX], text[RATIO_TEXT_MAX];
-	fprintf(f, "config   %s\n", cfg->path);
-	if (cfg->preset_count > 1) {
-		fprintf(f, "presets ");
-		for (int i = 0; i < cfg->preset_count; i++)
-			fprintf(f, " %s%s%s", i == preset ? "[" : "", cfg->presets[i].name,
-				i == preset ? "]" : "");
-		fprintf(f, "  (shown in brackets; --preset NAME shows another)\n");
+	if (opt == OPT_DEVICE && value_whole(arg, 0, 126, &n)) {
+		syx->device = (uint8_t)n;
+		return true;
 	}
-	fprintf(f, "lattice  %d of %d seeds (", spec->choose, spec->seed_count);
-	print_seeds(f, spec);
-	fprintf(f, "), period %s, ", ratio_format(spec->period, text, sizeof text));
-	if (spec->has_unison)
-		fprintf(f, "%s is 1/1\n", lattice_label(spec, spec->unison_seeds, label, sizeof label));
-	else
-		fprintf(f, "1/1 is the reference pitch\n");
-	fprintf(f, "         %d tones, %d harmonic and %d subharmonic chords\n",
-		lat->tone_count, lat->harmonic_count,
-		lat->chord_count - lat->harmonic_count);
-}
-
-/* The widest tone label, at least as wide as the column's title. */
-static int label_width_of(const struct lattice *lat)
-{
-	char label[LATTICE_LABEL_MAX];
-	int width = 5;
-	for (int i = 0; i < lat->tone_count; i++) {
-		int w = (int)strlen(lattice_label(&lat->spec, lat->tones[i].seeds, label, sizeof label));
-		if (w > width)
-			width = w;
+	if (opt == OPT_PROGRAM && value_whole(arg, 0, 127, &n)) {
+		syx->program = (uint8_t)n;
+		return true;
 	}
-	return width;
+	fprintf(stderr, "latticed table: %s is '%s', expected %s\n",
+		opt == OPT_DEVICE ? "--device" : "--program", arg,
+		opt == OPT_DEVICE ? "a device ID from 0 to 126, or all" : "a tuning program from 0 to 127");
+	return false;
 }
 
-static void print_tones(FILE *f, const struct lattice *lat, int label_width)
+static int bad_usage(const char *why)
 {
-	char label[LATTICE_LABEL_MAX], text[RATIO_TEXT_MAX];
-	fprintf(f, "\ntones\n  %4s  %-*s  %13s  %9s\n", "tone", label_width, "seeds",
-		"ratio", "cents");
-	for (int i = 0; i < lat->tone_count; i++) {
-		const struct tone *tone = &lat->tones[i];
-		fprintf(f, "  %4d  %-*s  %13s  %9.3f", i, label_width,
-			lattice_label(&lat->spec, tone->seeds, label, sizeof label),
-			ratio_format(tone->ratio, text, sizeof text), tone->cents);
-		if (tone->merged_count)
-			fprintf(f, "  (+%d merged)", tone->merged_count);
-		fputc('\n', f);
-	}
+	if (why)
+		fprintf(stderr, "latticed table: %s\n", why);
+	fprintf(stderr, "Try 'latticed table --help'.\n");
+	return EXIT_USAGE;
 }
 
-/* "1.3 1.5 3.5": the chord's tones by label. */
-static void chord_tones(const struct lattice *lat, const struct chord *ch, char *tones, size_t size)
+/* Reads the command line into o; -1 to go on, else the exit status. */
+static int read_options(int argc, char **argv, const char *default_config, struct table_options *o)
 {
-	size_t used = 0;
-	tones[0] = '\0';
-	for (int i = 0; i < ch->tone_count; i++) {
-		char member[LATTICE_LABEL_MAX];
-		int n = snprintf(tones + used, size - used, "%s%s", i ? " " : "",
-				 lattice_label(&lat->spec, lat->tones[ch->tones[i]].seeds,
-					       member, sizeof member));
-		if (n < 0 || (size_t)n >= size - used)
+	static const struct option options[] = {
+		{"config", required_argument, NULL, 'c'},
+		{"preset", required_argument, NULL, 'p'},
+		{"root", required_argument, NULL, 'r'},
+		{"json", no_argument, NULL, 'j'},
+		{"keys", no_argument, NULL, 'k'},
+		{"syx", required_argument, NULL, 's'},
+		{"single-note", no_argument, NULL, OPT_SINGLE},
+		{"device", required_argument, NULL, OPT_DEVICE},
+		{"program", required_argument, NULL, OPT_PROGRAM},
+		{"help", no_argument, NULL, 'h'},
+		{NULL, 0, NULL, 0},
+	};
+	int opt;
+	while ((opt = getopt_long(argc, argv, "c:p:r:jks:h", options, NULL)) != -1) {
+		switch (opt) {
+		case 'c':
+			o->config_path = optarg;
 			break;
-		used += (size_t)n;
-	}
-}
-
-static void print_chords(FILE *f, const struct lattice *lat, int label_width)
-{
-	char label[LATTICE_LABEL_MAX];
-	int widest_chord = 0;
-	for (int c = 0; c < lat->chord_count; c++)
-		if (lat->chords[c].tone_count > widest_chord)
-			widest_chord = lat->chords[c].tone_count;
-	int tones_width = widest_chord * (label_width + 1);
-	fprintf(f, "\nchords\n  %-11s  %-*s  %-*s  %s\n", "kind", label_width + 2,
-		"seeds", tones_width, "tones", "proportion");
-	for (int c = 0; c < lat->chord_count; c++) {
-		const struct chord *ch = &lat->chords[c];
-		char tones[LATTICE_MAX_CHORD_TONES * (LATTICE_LABEL_MAX + 1)];
-		chord_tones(lat, ch, tones, sizeof tones);
-		const char *on = ch->seeds ? lattice_label(&lat->spec, ch->seeds, label, sizeof label) : "-";
-		fprintf(f, "  %-11s  %-*s  %-*s  ",
-			ch->kind == CHORD_HARMONIC ? "harmonic" : "subharmonic",
-			label_width + 2, on, tones_width, tones);
-		if (!ch->proportion_ok)
-			fprintf(f, "(too large for 64-bit integers)");
-		for (int i = 0; i < ch->tone_count && ch->proportion_ok; i++)
-			fprintf(f, "%s%lld", i ? ":" : "", (long long)ch->proportion[i]);
-		fputc('\n', f);
-	}
-}
-
-static void print_outputs(FILE *f, const struct config *cfg, const struct keymap_spec *keys)
-{
-	fprintf(f, "\nkeys     layout %s", key_layout_name(keys->layout));
-	if (keys->layout != KEY_LAYOUT_NEAREST)
-		fprintf(f, ", tone 0 on key %d", keys->root_key);
-	if (keys->transpose)
-		fprintf(f, ", transposed %+d", keys->transpose);
-	fprintf(f, ", 1/1 = %g Hz, key 60 = C4\n", keys->root_hz);
-	for (int o = 0; o < cfg->output_count; o++) {
-		const struct output_config *out = &cfg->outputs[o];
-		char chans[64];
-		fprintf(f, "output   %s: %s on channels %s", out->name,
-			retune_method_name(out->engine.method),
-			config_format_channels(out->engine.channels, chans, sizeof chans));
-		if (output_uses_bend(out))
-			fprintf(f, ", bend range +-%d semitones", out->engine.bend_range);
-		if (out->engine.method == RETUNE_MTS)
-			fprintf(f, ", tuning program %d", out->engine.mts_program);
-		if (out->engine.bend_played != 1.0)
-			fprintf(f, ", synth plays %.7g of a bend", out->engine.bend_played);
-		if (out->engine.cents_offset != 0.0)
-			fprintf(f, ", %+g cents", out->engine.cents_offset);
-		fputc('\n', f);
-	}
-}
-
-static void print_keys(FILE *f, const struct config *cfg, const struct tuning *t, int label_width)
-{
-	const struct lattice *lat = &t->lattice;
-	const struct keymap *map = &t->keymap;
-	char label[LATTICE_LABEL_MAX], name[8];
-	fprintf(f, "\n  %3s  %-4s  %4s  %-*s  %6s  %10s  %3s  %8s", "key", "name",
-		"tone", label_width, "seeds", "period", "Hz", "out", "cents");
-	for (int o = 0; o < cfg->output_count; o++)
-		if (output_uses_bend(&cfg->outputs[o]))
-			fprintf(f, "  %6s %7s", "bend", "error");
-	fprintf(f, "  %s\n", "MTS word");
-	for (int k = 0; k < KEYMAP_KEYS; k++) {
-		const struct key_pitch *kp = &map->keys[k];
-		if (kp->state != KEY_SOUNDING)
-			continue;
-		fprintf(f, "  %3d  %-4s  %4d  %-*s  %6d  %10.3f  %3d  %+8.3f", k,
-			key_name(k, name, sizeof name), kp->tone, label_width,
-			lattice_label(&lat->spec, lat->tones[kp->tone].seeds, label, sizeof label),
-			kp->period, kp->hz, kp->out_key, kp->cents_off);
-		for (int o = 0; o < cfg->output_count; o++) {
-			if (!output_uses_bend(&cfg->outputs[o]))
-				continue;
-			struct bend b = output_bend(cfg, o, k);
-			fprintf(f, "  %6u %+7.3f", b.value, b.error_cents);
+		case 'p':
+			o->preset = optarg;
+			break;
+		case 'r':
+			o->root = optarg;
+			break;
+		case 'j':
+		case 'k':
+		case 's':
+			o->form = opt == 'j' ? FORM_JSON : opt == 'k' ? FORM_KEYS : FORM_SYX;
+			o->forms_given++;
+			if (opt == 's')
+				o->syx.path = optarg;
+			break;
+		case OPT_SINGLE:
+			o->syx.form = TUNING_DUMP_SINGLE;
+			o->syx_option_given = true;
+			break;
+		case OPT_DEVICE:
+		case OPT_PROGRAM:
+			o->syx_option_given = true;
+			if (!read_number(opt, optarg, &o->syx))
+				return EXIT_USAGE;
+			break;
+		case 'h':
+			usage(stdout, default_config);
+			return 0;
+		default:
+			return bad_usage(NULL);
 		}
-		fprintf(f, "  %02X %02X %02X\n", kp->mts[0], kp->mts[1], kp->mts[2]);
 	}
-	if (cfg->output_count > 1) {
-		fprintf(f, "  (bend columns in output order:");
-		for (int o = 0; o < cfg->output_count; o++)
-			if (output_uses_bend(&cfg->outputs[o]))
-				fprintf(f, " %s", cfg->outputs[o].name);
-		fprintf(f, ")\n");
+	if (optind < argc) {
+		fprintf(stderr, "latticed table: unexpected argument '%s'\n", argv[optind]);
+		return bad_usage(NULL);
 	}
-	print_key_ranges(f, map, KEY_SILENT, "silent keys");
-	print_key_ranges(f, map, KEY_OUT_OF_RANGE,
-			 "silent, pitch outside MIDI (below key 0 or above MTS 7F 7F 7E)");
+	if (o->forms_given > 1)
+		return bad_usage("--json, --keys and --syx each choose what to print, expected one of them");
+	if (o->syx_option_given && o->form != FORM_SYX)
+		return bad_usage("--single-note, --device and --program are for --syx FILE, expected --syx with them");
+	return -1;
 }
 
-void table_print_text(FILE *f, const struct config *cfg, int preset, const struct tuning *t)
+static int show(const struct table_view *v, const struct table_options *o)
 {
-	build_output_tables(cfg, &t->keymap);
-	int label_width = label_width_of(&t->lattice);
-	print_lattice(f, cfg, preset, &t->lattice);
-	print_tones(f, &t->lattice, label_width);
-	print_chords(f, &t->lattice, label_width);
-	print_outputs(f, cfg, &cfg->presets[preset].keys);
-	print_keys(f, cfg, t, label_width);
-}
-
-static struct json_object *fixed(double value, int decimals)
-{
-	char buf[64];
-	snprintf(buf, sizeof buf, "%.*f", decimals, value);
-	return json_object_new_double_s(value, buf);
-}
-
-static struct json_object *key_list(const struct keymap *map, enum key_state state)
-{
-	struct json_object *list = json_object_new_array();
-	for (int k = 0; k < KEYMAP_KEYS; k++)
-		if (map->keys[k].state == state)
-			json_object_array_add(list, json_object_new_int(k));
-	return list;
-}
-
-static struct json_object *json_lattice(const struct lattice_spec *spec)
-{
-	char label[LATTICE_LABEL_MAX], text[RATIO_TEXT_MAX];
-	struct json_object *jl = json_object_new_object();
-	struct json_object *seeds = json_object_new_array();
-	for (int i = 0; i < spec->seed_count; i++)
-		json_object_array_add(seeds, json_object_new_string(spec->seed_text[i]));
-	json_object_object_add(jl, "seeds", seeds);
-	json_object_object_add(jl, "choose", json_object_new_int(spec->choose));
-	json_object_object_add(jl, "period",
-			       json_object_new_string(ratio_format(spec->period, text, sizeof text)));
-	json_object_object_add(jl, "unison", spec->has_unison
-			       ? json_object_new_string(lattice_label(spec, spec->unison_seeds, label, sizeof label))
-			       : NULL);
-	return jl;
-}
-
-static struct json_object *json_tones(const struct lattice *lat)
-{
-	const struct lattice_spec *spec = &lat->spec;
-	char label[LATTICE_LABEL_MAX], text[RATIO_TEXT_MAX];
-	struct json_object *tones = json_object_new_array();
-	for (int i = 0; i < lat->tone_count; i++) {
-		const struct tone *tone = &lat->tones[i];
-		struct json_object *jt = json_object_new_object();
-		json_object_object_add(jt, "index", json_object_new_int(i));
-		json_object_object_add(jt, "label",
-				       json_object_new_string(lattice_label(spec, tone->seeds, label, sizeof label)));
-		json_object_object_add(jt, "ratio",
-				       json_object_new_string(ratio_format(tone->ratio, text, sizeof text)));
-		json_object_object_add(jt, "cents", fixed(tone->cents, 6));
-		struct json_object *merged = json_object_new_array();
-		for (int m = 0; m < lat->merge_count; m++)
-			if (lat->merges[m].tone == i)
-				json_object_array_add(merged, json_object_new_string(
-					lattice_label(spec, lat->merges[m].seeds, label, sizeof label)));
-		json_object_object_add(jt, "merged", merged);
-		json_object_array_add(tones, jt);
+	int rc = 0;
+	switch (o->form) {
+	case FORM_SYX:
+		return table_write_syx(v, &o->syx);
+	case FORM_JSON:
+		rc = table_print_json(stdout, v);
+		break;
+	case FORM_KEYS:
+		rc = table_print_keys(stdout, v);
+		break;
+	case FORM_TEXT:
+		table_print_text(stdout, v);
+		break;
 	}
-	return tones;
-}
-
-static struct json_object *json_chords(const struct lattice *lat)
-{
-	char label[LATTICE_LABEL_MAX];
-	struct json_object *chords = json_object_new_array();
-	for (int c = 0; c < lat->chord_count; c++) {
-		const struct chord *ch = &lat->chords[c];
-		struct json_object *jc = json_object_new_object();
-		json_object_object_add(jc, "kind", json_object_new_string(
-			ch->kind == CHORD_HARMONIC ? "harmonic" : "subharmonic"));
-		json_object_object_add(jc, "seeds", json_object_new_string(
-			lattice_label(&lat->spec, ch->seeds, label, sizeof label)));
-		struct json_object *members = json_object_new_array();
-		struct json_object *prop = json_object_new_array();
-		for (int i = 0; i < ch->tone_count; i++) {
-			json_object_array_add(members, json_object_new_int(ch->tones[i]));
-			if (ch->proportion_ok)
-				json_object_array_add(prop, json_object_new_int64(ch->proportion[i]));
-		}
-		json_object_object_add(jc, "tones", members);
-		json_object_object_add(jc, "proportion", ch->proportion_ok ? prop : NULL);
-		if (!ch->proportion_ok)
-			json_object_put(prop);
-		json_object_array_add(chords, jc);
+	if (fflush(stdout) != 0 || rc != 0) {
+		perror("latticed table: writing the table");
+		return 1;
 	}
-	return chords;
+	return 0;
 }
 
-static struct json_object *json_outputs(const struct config *cfg)
+int table_command(int argc, char **argv, const char *default_config)
 {
-	struct json_object *outputs = json_object_new_array();
-	for (int o = 0; o < cfg->output_count; o++) {
-		const struct output_config *out = &cfg->outputs[o];
-		struct json_object *jo = json_object_new_object();
-		json_object_object_add(jo, "name", json_object_new_string(out->name));
-		json_object_object_add(jo, "method", json_object_new_string(retune_method_name(out->engine.method)));
-		struct json_object *chans = json_object_new_array();
-		for (int ch = 0; ch < 16; ch++)
-			if (out->engine.channels & (1u << ch))
-				json_object_array_add(chans, json_object_new_int(ch + 1));
-		json_object_object_add(jo, "channels", chans);
-		json_object_object_add(jo, "bend_range", json_object_new_int(out->engine.bend_range));
-		json_object_object_add(jo, "bend_factor", fixed(out->engine.bend_played, 9));
-		json_object_object_add(jo, "cents_offset", fixed(out->engine.cents_offset, 6));
-		json_object_array_add(outputs, jo);
+	struct table_options o = {.syx = {.device = TUNING_DUMP_ALL_DEVICES}};
+	int rc = read_options(argc, argv, default_config, &o);
+	if (rc >= 0)
+		return rc;
+	struct config *cfg = malloc(sizeof *cfg);
+	struct tuning *t = NULL;
+	struct table_view v = {.cfg = cfg};
+	rc = cfg ? cli_load_config(o.config_path, default_config, cfg) : 1;
+	if (rc == 0 && o.preset && (v.preset = cli_find_preset("table", cfg, o.preset)) < 0)
+		rc = 1;
+	if (rc == 0)
+		rc = cli_build_tuning(cfg, v.preset, &t);
+	if (rc == 0 && o.root &&
+	    (v.root = cli_find_root("table", cfg, v.preset, &t->lattice, o.root)) < 0)
+		rc = 1;
+	if (rc == 0) {
+		char name[CONFIG_PATH_MAX + 64];
+		cli_config_name(cfg, default_config, name, sizeof name);
+		if (v.root > 0)
+			keymap_shift(&t->keymap, retune_root_shift(&t->lattice, v.root - 1));
+		v.config_name = name;
+		v.tuning = t;
+		rc = show(&v, &o);
 	}
-	return outputs;
-}
-
-/* Every output's bend for key k into jk; the first also at top level. */
-static void json_key_bends(struct json_object *jk, const struct config *cfg, int k)
-{
-	struct json_object *bends = json_object_new_object();
-	for (int o = 0; o < cfg->output_count; o++) {
-		struct bend b = output_bend(cfg, o, k);
-		if (o == 0) {
-			/* the first output's bend, at top level for quick use */
-			json_object_object_add(jk, "bend", json_object_new_int(b.value));
-			json_object_object_add(jk, "bend_error_cents", fixed(b.error_cents, 6));
-		}
-		struct json_object *jb = json_object_new_object();
-		json_object_object_add(jb, "value", json_object_new_int(b.value));
-		json_object_object_add(jb, "error_cents", fixed(b.error_cents, 6));
-		json_object_object_add(bends, cfg->outputs[o].name, jb);
-	}
-	json_object_object_add(jk, "bends", bends);
-}
-
-static struct json_object *json_keys(const struct config *cfg, const struct tuning *t)
-{
-	const struct lattice *lat = &t->lattice;
-	const struct keymap *map = &t->keymap;
-	char label[LATTICE_LABEL_MAX];
-	struct json_object *jkeys = json_object_new_array();
-	for (int k = 0; k < KEYMAP_KEYS; k++) {
-		const struct key_pitch *kp = &map->keys[k];
-		if (kp->state != KEY_SOUNDING)
-			continue;
-		struct json_object *jk = json_object_new_object();
-		json_object_object_add(jk, "key", json_object_new_int(k));
-		json_object_object_add(jk, "tone", json_object_new_int(kp->tone));
-		json_object_object_add(jk, "label", json_object_new_string(
-			lattice_label(&lat->spec, lat->tones[kp->tone].seeds, label, sizeof label)));
-		json_object_object_add(jk, "period", json_object_new_int(kp->period));
-		json_object_object_add(jk, "hz", fixed(kp->hz, 6));
-		json_object_object_add(jk, "out_key", json_object_new_int(kp->out_key));
-		json_object_object_add(jk, "cents_off", fixed(kp->cents_off, 6));
-		json_key_bends(jk, cfg, k);
-		struct json_object *mts = json_object_new_array();
-		for (int i = 0; i < 3; i++)
-			json_object_array_add(mts, json_object_new_int(kp->mts[i]));
-		json_object_object_add(jk, "mts", mts);
-		json_object_array_add(jkeys, jk);
-	}
-	return jkeys;
-}
-
-int table_print_json(FILE *f, const struct config *cfg, int preset, const struct tuning *t)
-{
-	const struct keymap *map = &t->keymap;
-	build_output_tables(cfg, map);
-	struct json_object *root = json_object_new_object();
-	json_object_object_add(root, "config", json_object_new_string(cfg->path));
-	json_object_object_add(root, "preset", json_object_new_string(cfg->presets[preset].name));
-	struct json_object *presets = json_object_new_array();
-	for (int i = 0; i < cfg->preset_count; i++)
-		json_object_array_add(presets, json_object_new_string(cfg->presets[i].name));
-	json_object_object_add(root, "presets", presets);
-	json_object_object_add(root, "lattice", json_lattice(&t->lattice.spec));
-	json_object_object_add(root, "tones", json_tones(&t->lattice));
-	json_object_object_add(root, "chords", json_chords(&t->lattice));
-	json_object_object_add(root, "outputs", json_outputs(cfg));
-	json_object_object_add(root, "keys", json_keys(cfg, t));
-	json_object_object_add(root, "silent_keys", key_list(map, KEY_SILENT));
-	json_object_object_add(root, "out_of_range_keys", key_list(map, KEY_OUT_OF_RANGE));
-
-	const char *s = json_object_to_json_string_ext(
-		root, JSON_C_TO_STRING_PRETTY | JSON_C_TO_STRING_NOSLASHESCAPE);
-	int rc = fputs(s, f) < 0 || fputc('\n', f) == EOF ? -1 : 0;
-	json_object_put(root);
+	free(t);
+	free(cfg);
 	return rc;
 }

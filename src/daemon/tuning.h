@@ -35,7 +35,13 @@ struct tuning_set {
 bool tuning_build(const struct config *cfg, int preset, struct tuning *out,
 		  struct config_report *report);
 
-/* Builds every preset (allocates); false with errors in report. */
+/* A root as `latticed root` takes it: "home" or 0, a number n (tone n-1
+ * becomes 1/1), or a tone's label; the root slot (0 = home, t + 1 = tone t),
+ * or -1 if the text names none of them. */
+int tuning_root_slot(const struct lattice *lat, const char *text);
+
+/* Builds every preset (allocates) and checks the runs of reserved keys
+ * against them (config_control.h); false with errors in report. */
 bool tuning_set_build(const struct config *cfg, struct tuning_set *out,
 		      struct config_report *report);
 void tuning_set_free(struct tuning_set *set);

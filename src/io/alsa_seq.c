@@ -50,6 +50,7 @@
 
 #include <alsa/asoundlib.h>
 
+#include "alsa_connect.h"
 #include "alsa_quiet.h"
 #include "midi_io.h"
 #include "seq_event_bytes.h"
@@ -137,13 +138,13 @@ static void report(struct midi_io *io, enum midi_io_event kind, int index, const
 
 /* ---- open errors ------------------------------------------------------ */
 
-static int seq_open(snd_seq_t **seq)
+int alsa_seq_open(snd_seq_t **seq)
 {
 	alsa_quiet_lib_errors();
 	return snd_seq_open(seq, "default", SND_SEQ_OPEN_DUPLEX, SND_SEQ_NONBLOCK);
 }
 
-static void open_error(int err, char *msg, size_t size)
+void alsa_seq_open_error(int err, char *msg, size_t size)
 {
 	if (err == -ENOENT && access(SEQ_DEVICE, F_OK) != 0)
 		snprintf(msg, size, "no ALSA sequencer: " SEQ_DEVICE " does not exist; load it with "
@@ -282,13 +283,15 @@ static void connect_port(struct midi_io *io, const char *client_name)
 	unsigned caps = snd_seq_port_info_get_capability(io->pinfo);
 	const char *port_name = snd_seq_port_info_get_name(io->pinfo);
 
+	snd_seq_addr_t addr = {.client = (unsigned char)client, .port = (unsigned char)port};
 	if (client == SND_SEQ_CLIENT_SYSTEM || client == io->client)
 		return;
-	if ((caps & CAN_READ) == CAN_READ && midi_io_matches(&io->spec.input, client_name, port_name))
+	if ((caps & CAN_READ) == CAN_READ &&
+	    alsa_port_matches(&io->spec.input, addr, client_name, port_name))
 		try_connect(io, snd_seq_connect_from(io->seq, io->in_port, client, port));
 	for (int i = 0; i < io->output_count; i++)
 		if ((caps & CAN_WRITE) == CAN_WRITE &&
-		    midi_io_matches(&io->spec.outputs[i], client_name, port_name))
+		    alsa_port_matches(&io->spec.outputs[i], addr, client_name, port_name))
 			try_connect(io, snd_seq_connect_to(io->seq, io->out[i].port, client, port));
 }
 
@@ -569,10 +572,10 @@ static struct midi_io *alsa_open(const struct midi_io_spec *spec, const struct m
 		alsa_close(io);
 		return NULL;
 	}
-	int r = seq_open(&io->seq);
+	int r = alsa_seq_open(&io->seq);
 	if (r < 0) {
 		io->seq = NULL;
-		open_error(r, err, err_size);
+		alsa_seq_open_error(r, err, err_size);
 		alsa_close(io);
 		return NULL;
 	}
@@ -672,9 +675,9 @@ static bool alsa_list(midi_io_line_fn line, void *context, char *err, size_t err
 	snd_seq_t *seq;
 	snd_seq_client_info_t *cinfo;
 	snd_seq_port_info_t *pinfo;
-	int r = seq_open(&seq);
+	int r = alsa_seq_open(&seq);
 	if (r < 0) {
-		open_error(r, err, err_size);
+		alsa_seq_open_error(r, err, err_size);
 		return false;
 	}
 	if (snd_seq_client_info_malloc(&cinfo) < 0) {
@@ -712,6 +715,9 @@ static bool alsa_list(midi_io_line_fn line, void *context, char *err, size_t err
 	}
 	if (shown == 0)
 		line(context, "  (none: no MIDI device or program offers a port)");
+	else
+		line(context, "Connect two: latticed connect SRC DST (names, patterns or these numbers;"
+			      " aconnect needs the numbers)");
 	snd_seq_port_info_free(pinfo);
 	snd_seq_client_info_free(cinfo);
 	snd_seq_close(seq);
@@ -727,5 +733,6 @@ const struct midi_io_backend midi_io_alsa = {
 	.flush = alsa_flush,
 	.describe = alsa_describe,
 	.list = alsa_list,
+	.connect = alsa_connect,
 	.close = alsa_close,
 };

@@ -1,7 +1,7 @@
 #!/usr/bin/env python3
 """A recreated input FIFO: while `latticed run --backend raw` runs, its
 input FIFO is removed and made again with mkfifo (as a script restarting
-a player does).  latticed must read the new FIFO and say so in its log;
+a player does).  latticed must read the new FIFO and say so in its log (our rule);
 notes played into it reach the synth and end when released.  A second
 round removes the FIFO while a writer still holds the old one open and
 mid-chord: the old writer's notes must end (its source is gone), then the

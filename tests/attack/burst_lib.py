@@ -352,14 +352,15 @@ class Daemon:
     """latticed run --backend raw, input from a FIFO, outputs as given:
     outputs = [(name, method, kind)], kind "file" or "fifo"."""
 
-    def __init__(self, binary, outputs, extra_input="", running_status=False):
+    def __init__(self, binary, outputs, extra_input="", running_status=False, extra=""):
         self.binary = binary
         self.dir = tempfile.mkdtemp(prefix="latticed-burst-")
         self.conf = os.path.join(self.dir, "burst.conf")
         self.in_path = os.path.join(self.dir, "in.fifo")
         os.mkfifo(self.in_path)
         text = ("[daemon]\nbackend = raw\ncontrol_socket = %s/control\nrealtime_priority = none\n"
-                "lock_memory = no\n\n[input]\nconnect = %s\n%s\n" % (self.dir, self.in_path, extra_input))
+                "lock_memory = no\nstate_file = %s/state.json\n\n[input]\nconnect = %s\n%s\n"
+                % (self.dir, self.dir, self.in_path, extra_input))
         self.outputs = []
         for name, method, kind in outputs:
             path = os.path.join(self.dir, name + (".fifo" if kind == "fifo" else ".bin"))
@@ -369,6 +370,7 @@ class Daemon:
                 name, OUTPUT_KEYS[method], path,
                 "running_status = yes\n" if running_status else "")
             self.outputs.append((name, method, kind, path))
+        text += extra  # more sections: [control], [preset NAME], ...
         with open(self.conf, "w") as f:
             f.write(text)
         self.log_path = os.path.join(self.dir, "log.txt")
@@ -379,11 +381,29 @@ class Daemon:
             synth = Synth(name, mpe_master=0 if method == "mpe" else None)
             self.synths[name] = synth
             self.readers[name] = FifoReader(path, synth) if kind == "fifo" else FileTail(path, synth)
-        for _ in range(500):
-            if os.path.exists(os.path.join(self.dir, "control")):
-                break
-            time.sleep(0.02)
+        self.wait_ready()
         self.player = os.open(self.in_path, os.O_WRONLY)
+
+    def wait_ready(self):
+        """Until the daemon answers on its control socket (at most 10 s)."""
+        for _ in range(500):
+            if os.path.exists(os.path.join(self.dir, "control")) and self.proc.poll() is None:
+                r = subprocess.run([self.binary, "status", "--socket", os.path.join(self.dir, "control")],
+                                   capture_output=True, timeout=30)
+                if r.returncode == 0:
+                    return
+            time.sleep(0.02)
+
+    def restart(self, kill=True):
+        """The daemon dies (SIGKILL: a crash, or the watchdog) or stops, and
+        starts again with the same config, FIFOs and files."""
+        if kill:
+            self.proc.kill()
+            self.proc.wait()
+        else:
+            self.stop()
+        self.proc = subprocess.Popen([self.binary, "run", "--config", self.conf], stderr=self.log)
+        self.wait_ready()
 
     def play(self, data):
         view = memoryview(bytes(data))

@@ -2,7 +2,7 @@
 """Pass-through notes (channels an output does not retune: drums on 10, a
 bass on 12) must end like retuned ones: by `latticed panic`, by SIGTERM,
 when their source goes away, and at the end of `latticed render`, which
-also counts them in its warning.
+also counts them in its warning (our rules: README, "No note hangs").
 
 The receiver model is burst_lib's (MIDI 1.0 rules named there): a note
 sounds from its note-on until its note-off, and longer while a sustain

@@ -4,7 +4,7 @@ mpe) read by synths that close their FIFO while a chord sounds under the
 sustain pedal, as an unsubscribed synth keeps sounding what it got.  The
 player lets go of the chord and the pedal while nobody listens; then the
 synths open their FIFOs again.  latticed must end what it had sent them
-before it sends the set-up again, so nothing is left sounding.
+before it sends the set-up again, so nothing is left sounding (our rule).
 
 Checked with burst_lib's receiver model (MIDI 1.0: a note released under
 the sustain pedal sounds until the pedal goes up; All Notes Off releases,

@@ -33,7 +33,8 @@
  *     held back (the receiver is not reading): call it again later.
  *   - describe() (input thread) and list() (any thread, no open needed)
  *     report ports and connections as text lines for `latticed status`
- *     and `latticed ports`.
+ *     and `latticed ports`; connect() (optional, no open needed) links two
+ *     ports of other programs for `latticed connect`.
  * Events and bytes are converted at this edge: nothing above sees a
  * backend's own event types.
  */
@@ -103,6 +104,14 @@ struct midi_io_backend {
 	bool (*flush)(struct midi_io *io);
 	void (*describe)(struct midi_io *io, midi_io_line_fn line, void *context);
 	bool (*list)(midi_io_line_fn line, void *context, char *err, size_t err_size);
+	/* Optional (NULL: the backend makes no connections on request, its
+	 * ports are files or devices): connects, or with undo disconnects, the
+	 * one port others may read from that `from` names to the one port
+	 * others may write to that `to` names, each a pattern as in connect
+	 * lists or a client:port number; says what it did through line(),
+	 * fails with one line in err (a side matching no port or several). */
+	bool (*connect)(const char *from, const char *to, bool undo, midi_io_line_fn line,
+			void *context, char *err, size_t err_size);
 	void (*close)(struct midi_io *io);
 };
 

@@ -105,7 +105,10 @@ class Tuning:
             while r < 1:
                 r *= self.period
             tones.add(r)
-            labels.setdefault(r, ".".join(keys["seeds"].split()[i] for i in combo))
+            # our label syntax: seeds joined by '.', a ratio seed in parentheses
+            labels.setdefault(r, ".".join(
+                f"({t})" if "/" in t else t
+                for t in (keys["seeds"].split()[i] for i in combo)))
         self.tones = sorted(tones)
         self.labels = labels
 
