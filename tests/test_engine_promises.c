@@ -50,7 +50,7 @@ struct random_run {
 static struct watched {
 	int count;
 	struct engine_note_info notes[ENGINE_MAX_NOTES];
-	long starts, stops;
+	long long starts, stops;
 } watched;
 
 static void watch_note(void *context, bool sounding, const struct engine_note_info *note)
@@ -356,8 +356,8 @@ static void run_random(const char *name, struct engine_spec spec, uint64_t seed,
 	release_everything(&r);
 	engine_panic(&h.engine);
 	check_watched(r.events);
-	if (watched.count != 0 || watched.starts != stats()->notes_on)
-		fail_msg("%s: the watch saw %ld notes start for %u note-ons, %d left sounding", name,
+	if (watched.count != 0 || watched.starts != (long long)stats()->notes_on)
+		fail_msg("%s: the watch saw %lld notes start for %u note-ons, %d left sounding", name,
 			 watched.starts, stats()->notes_on, watched.count);
 	/* promise 1: every note-on met exactly one note-off */
 	for (int c = 0; c < 16; c++)
