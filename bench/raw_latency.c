@@ -12,6 +12,11 @@
  * clock measures both (CLOCK_MONOTONIC).
  *
  * Usage: raw_latency LATTICED_BINARY [NOTES]
+ *
+ * With RAW_LATENCY_WAIT set it prints "control socket PATH" once the
+ * daemon is up and waits for a line on standard input before it plays,
+ * so a caller can attach clients to the daemon first (tests/browser_check.py
+ * opens pages of `latticed view` on it).
  */
 #define _GNU_SOURCE
 #include <errno.h>
@@ -105,6 +110,13 @@ int main(int argc, char **argv)
 		return 1;
 	}
 	usleep(200000);
+	if (getenv("RAW_LATENCY_WAIT")) {
+		char line[16];
+		printf("control socket %s\n", sock);
+		fflush(stdout);
+		if (!fgets(line, sizeof line, stdin))
+			fprintf(stderr, "raw_latency: no go-ahead on standard input; playing anyway\n");
+	}
 	unsigned char drain[4096];
 	while (read(out_fd, drain, sizeof drain) > 0)
 		; /* the set-up messages */

@@ -57,6 +57,10 @@ file(GLOB _unit_sources CONFIGURE_DEPENDS
   "${PROJECT_SOURCE_DIR}/systemd/*.socket" "${PROJECT_SOURCE_DIR}/systemd/*.socket.in"
   "${PROJECT_SOURCE_DIR}/systemd/*.timer" "${PROJECT_SOURCE_DIR}/systemd/*.timer.in"
   "${PROJECT_SOURCE_DIR}/systemd/*.path" "${PROJECT_SOURCE_DIR}/systemd/*.path.in")
+# latticed view's unit only with the command (-DLATTICED_VIEW=OFF leaves both out)
+if(NOT LATTICED_VIEW)
+  list(FILTER _unit_sources EXCLUDE REGEX "/latticed-view\\.service")
+endif()
 set(LATTICED_UNITS "")
 foreach(src IN LISTS _unit_sources)
   get_filename_component(name "${src}" NAME)

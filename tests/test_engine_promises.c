@@ -12,6 +12,11 @@
  *      player moves a wheel;
  *   4. every note sounds within half a bend (or MTS) step of its key's
  *      pitch from the key map, the wheel and the synth correction added.
+ * Besides, (our rule) the note watch (engine_watch_notes) reports exactly
+ * the notes that sound: after every event the notes it was told of are the
+ * engine's own list (engine_note_at), and each of them whose key is still
+ * down sounds in the synth model on its output channel and key (a note
+ * the engine keeps ringing under sostenuto may already be off there).
  * Each scenario prints its figures (events, pitches checked, worst error,
  * notes stolen, shared, dropped).
  */
@@ -38,6 +43,61 @@ struct random_run {
 	long events, checked_pitches;
 	double worst_error;   /* in steps */
 };
+
+/* ---- the note watch --------------------------------------------------------- */
+
+/* What the watch said sounds, by the note's start serial (unique per engine). */
+static struct watched {
+	int count;
+	struct engine_note_info notes[ENGINE_MAX_NOTES];
+	long long starts, stops;
+} watched;
+
+static void watch_note(void *context, bool sounding, const struct engine_note_info *note)
+{
+	(void)context;
+	if (sounding) {
+		for (int i = 0; i < watched.count; i++)
+			if (watched.notes[i].started == note->started)
+				fail_msg("the watch reported note %u starting twice", note->started);
+		if (watched.count == ENGINE_MAX_NOTES)
+			fail_msg("the watch reported more than %d notes sounding", ENGINE_MAX_NOTES);
+		watched.notes[watched.count++] = *note;
+		watched.starts++;
+		return;
+	}
+	for (int i = 0; i < watched.count; i++) {
+		if (watched.notes[i].started != note->started)
+			continue;
+		watched.notes[i] = watched.notes[--watched.count];
+		watched.stops++;
+		return;
+	}
+	fail_msg("the watch reported note %u stopping, never started", note->started);
+}
+
+static void check_watched(long events)
+{
+	struct engine_note_info n;
+	int count = 0;
+	for (; engine_note_at(&h.engine, count, &n); count++) {
+		bool seen = false;
+		for (int i = 0; i < watched.count && !seen; i++)
+			seen = watched.notes[i].started == n.started && watched.notes[i].tone == n.tone &&
+			       watched.notes[i].preset == n.preset && watched.notes[i].in_key == n.in_key;
+		if (!seen)
+			fail_msg("note %u (key %d) sounds, the watch never reported it (%ld events in)",
+				 n.started, n.in_key, events);
+		/* a note still down must sound; one the engine keeps ringing may
+		 * already be silent in the model (sostenuto, see check_watched) */
+		if (!n.ringing && !model.ch[n.out_channel].on[n.out_key])
+			fail_msg("the watch reports channel %d key %d down, the synth model has it off",
+				 n.out_channel + 1, n.out_key);
+	}
+	if (count != watched.count)
+		fail_msg("the watch says %d notes sound, the engine lists %d (%ld events in)",
+			 watched.count, count, events);
+}
 
 static double step_of(const struct random_run *r)
 {
@@ -271,6 +331,8 @@ static void run_random(const char *name, struct engine_spec spec, uint64_t seed,
 	memset(&r, 0, sizeof r);
 	r.spec = spec;
 	start(&spec);
+	memset(&watched, 0, sizeof watched);
+	engine_watch_notes(&h.engine, watch_note, NULL);
 	const char *shift = getenv("LATTICED_ENGINE_SEED");
 	struct rng g = {seed + (shift ? strtoull(shift, NULL, 10) * 1000003ULL : 0)};
 	int input[16], inputs = 0;
@@ -286,12 +348,17 @@ static void run_random(const char *name, struct engine_spec spec, uint64_t seed,
 	for (r.events = 0; r.events < events; r.events++) {
 		int in_ch = input[rng_below(&g, inputs)];
 		random_action(&r, &g, in_ch, &max_down, name);
+		check_watched(r.events);
 		if (model.violations)
 			fail_msg("%s (seed %llu) after %ld events: %s", name,
 				 (unsigned long long)seed, r.events, model.first);
 	}
 	release_everything(&r);
 	engine_panic(&h.engine);
+	check_watched(r.events);
+	if (watched.count != 0 || watched.starts != (long long)stats()->notes_on)
+		fail_msg("%s: the watch saw %lld notes start for %u note-ons, %d left sounding", name,
+			 watched.starts, stats()->notes_on, watched.count);
 	/* promise 1: every note-on met exactly one note-off */
 	for (int c = 0; c < 16; c++)
 		for (int k = 0; k < 128; k++)

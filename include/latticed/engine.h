@@ -39,8 +39,9 @@
  * sounds only by the player's own wheel or per-note bend; every note
  * sounds within half a bend (or MTS) step of its key's exact pitch.
  *
- * No allocation, I/O or locking after engine_init; the callback is the
- * only way out.  Not thread-safe: one thread drives an engine.
+ * No allocation, I/O or locking after engine_init; the callbacks (the
+ * messages out, and a note watch if one is set) are the only way out.
+ * Not thread-safe: one thread drives an engine.
  */
 #ifndef LATTICED_ENGINE_H
 #define LATTICED_ENGINE_H
@@ -225,6 +226,12 @@ struct engine_note_info {
 	double pitch;                        /* exact pitch as a note number */
 };
 
+/* A note began to sound (sounding = true: just after its note-on) or
+ * stopped (false: its slot is freed, after its note-off and any pedal that
+ * held it, or a panic, a steal, its source going).  engine_watch_notes. */
+typedef void (*engine_note_watch_fn)(void *context, bool sounding,
+				     const struct engine_note_info *note);
+
 /* What engine_release_held let go. */
 struct engine_release {
 	int keys;                            /* note-offs for keys still down */
@@ -294,6 +301,8 @@ struct engine {
 	const struct engine_tunings *tunings;
 	engine_emit_fn emit;
 	void *context;
+	engine_note_watch_fn note_watch; /* NULL: nobody watches */
+	void *note_watch_context;
 
 	int preset;
 	int root_slot;                   /* 0 = home, t+1 = tone t is 1/1 */
@@ -382,6 +391,11 @@ bool engine_resume_at(struct engine *e, int preset, int slot);
  * first preset, at home.  Says which.
  */
 enum engine_kept engine_replace_tunings(struct engine *e, const struct engine_tunings *tunings);
+
+/* Reports every note that starts or stops sounding to fn (NULL: no more),
+ * so a shell can show what sounds without scanning the notes.  fn runs
+ * inside engine_handle and friends: it must not call into this engine. */
+void engine_watch_notes(struct engine *e, engine_note_watch_fn fn, void *context);
 
 /* Does message m steer (a control, not a note), and is it the panic? */
 enum engine_steer { ENGINE_STEER_NONE, ENGINE_STEER_TUNING, ENGINE_STEER_PANIC };

@@ -223,6 +223,37 @@ void engine_start(struct engine *e)
 
 /* ---- notes ---------------------------------------------------------------- */
 
+static void note_info(const struct engine_note *note, struct engine_note_info *out)
+{
+	out->source = note->source;
+	out->in_channel = note->in_channel;
+	out->in_key = note->in_key;
+	out->out_channel = note->out_channel;
+	out->out_key = note->out_key;
+	out->ringing = note->phase == NOTE_RINGING;
+	out->started = note->started;
+	out->preset = note->preset;
+	out->root = note->root;
+	out->tone = note->tone;
+	out->period = note->period;
+	out->pitch = note->note;
+}
+
+static void tell_watch(struct engine *e, bool sounding, const struct engine_note *note)
+{
+	if (!e->note_watch)
+		return;
+	struct engine_note_info info;
+	note_info(note, &info);
+	e->note_watch(e->note_watch_context, sounding, &info);
+}
+
+void engine_watch_notes(struct engine *e, engine_note_watch_fn fn, void *context)
+{
+	e->note_watch = fn;
+	e->note_watch_context = context;
+}
+
 /* The lowest free slot: which slot a note gets decides the order in
  * which panic and steal end notes, so it stays the lowest. */
 static int alloc_note(struct engine *e)
@@ -237,6 +268,7 @@ void engine_end_note(struct engine *e, int index)
 {
 	struct engine_note *n = &e->notes[index];
 	struct engine_out_channel *o = &e->out[n->out_channel];
+	tell_watch(e, false, n);
 	if (n->phase == NOTE_DOWN &&
 	    e->key_down[n->source][n->in_channel][n->in_key] == index)
 		e->key_down[n->source][n->in_channel][n->in_key] = NO_NOTE;
@@ -320,6 +352,7 @@ static void note_on(struct engine *e, uint8_t source, int ch, int key, uint8_t v
 	engine_bit_put(e->out[at.channel].keys_on, at.key, true);
 	e->key_down[source][ch][key] = (int16_t)index;
 	e->stats.notes_on++;
+	tell_watch(e, true, n);
 }
 
 static void note_off(struct engine *e, uint8_t source, int ch, int key, uint8_t velocity)
@@ -557,18 +590,7 @@ bool engine_note_at(const struct engine *e, int n, struct engine_note_info *out)
 		const struct engine_note *note = &e->notes[i];
 		if (n-- > 0)
 			continue;
-		out->source = note->source;
-		out->in_channel = note->in_channel;
-		out->in_key = note->in_key;
-		out->out_channel = note->out_channel;
-		out->out_key = note->out_key;
-		out->ringing = note->phase == NOTE_RINGING;
-		out->started = note->started;
-		out->preset = note->preset;
-		out->root = note->root;
-		out->tone = note->tone;
-		out->period = note->period;
-		out->pitch = note->note;
+		note_info(note, out);
 		return true;
 	}
 	return false;

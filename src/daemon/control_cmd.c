@@ -49,7 +49,7 @@ static void usage(FILE *f, const struct control_command *c, const char *default_
 
 /* ---- talking to the daemon ------------------------------------------------ */
 
-static int connect_to(const char *path, int timeout_ms)
+int control_connect(const char *path, int timeout_ms)
 {
 	struct sockaddr_un addr;
 	memset(&addr, 0, sizeof addr);
@@ -81,7 +81,7 @@ static int connect_daemon(char paths[][CONTROL_PATH_MAX], int count, const char 
 			  int timeout_ms)
 {
 	for (int i = 0; i < count; i++) {
-		int fd = connect_to(paths[i], timeout_ms);
+		int fd = control_connect(paths[i], timeout_ms);
 		if (fd >= 0) {
 			*used = paths[i];
 			return fd;
@@ -299,10 +299,8 @@ static void print_status(struct json_object *st)
 
 /* ---- the commands ----------------------------------------------------------- */
 
-/* The candidate socket paths from the config's control_socket; 0 when
- * there is none to try (the reason is printed). */
-static int socket_candidates(const char *config_path, const char *default_config,
-			     char paths[][CONTROL_PATH_MAX])
+int control_socket_candidates(const char *config_path, const char *default_config,
+			      char paths[][CONTROL_PATH_MAX])
 {
 	struct config *cfg = malloc(sizeof *cfg);
 	struct config_report *report = malloc(sizeof *report);
@@ -434,7 +432,7 @@ int control_cmd_run(const struct control_command *c, int argc, char **argv,
 	int count = 1;
 	if (o.socket_path)
 		snprintf(paths[0], CONTROL_PATH_MAX, "%s", o.socket_path);
-	else if ((count = socket_candidates(o.config_path, default_config, paths)) == 0)
+	else if ((count = control_socket_candidates(o.config_path, default_config, paths)) == 0)
 		return 1;
 	const char *used = paths[0];
 	int fd = connect_daemon(paths, count, &used, c->timeout_ms);

@@ -26,6 +26,10 @@ const struct control_command control_commands[CONTROL_KIND_COUNT] = {
 	[CONTROL_RELOAD] = {CONTROL_RELOAD, "reload", NULL,
 			    "make the running daemon read its config again",
 			    "read the config again and apply its tunings (SIGHUP does the same)", 60000},
+	[CONTROL_SUBSCRIBE] = {CONTROL_SUBSCRIBE, "subscribe", NULL,
+			       "follow what sounds: a JSON line per event",
+			       "follow what sounds: the state first, then a JSON line per note, preset, root and reload",
+			       5000},
 };
 
 const struct control_command *control_command_find(const char *name)

@@ -3,7 +3,9 @@
  *
  * Model: five commands (status, panic, preset NAME, root TONE, reload), each
  * a request word on the control socket and a `latticed` command of the
- * same name.  The table holds the word, the form of its argument, the
+ * same name, and one request with no command of its own: subscribe, which
+ * turns the connection into a stream of events (subscription.c; `latticed
+ * view` is its client).  The table holds the word, the form of its argument, the
  * help texts and how long a client waits; the CLI (main.c), the client
  * (control_cmd.c) and the daemon (daemon.c) all read it, so a command is
  * added or renamed in one place.  A request is one line: the word, then
@@ -21,6 +23,7 @@ enum control_kind {
 	CONTROL_PRESET,
 	CONTROL_ROOT,
 	CONTROL_RELOAD,
+	CONTROL_SUBSCRIBE,
 	CONTROL_KIND_COUNT,
 };
 
@@ -30,7 +33,7 @@ struct control_command {
 	const char *arg;           /* its argument in usage texts ("NAME"), or NULL */
 	const char *summary;       /* one line for `latticed --help` */
 	const char *help;          /* the first line of `latticed NAME --help` */
-	int timeout_ms;            /* how long a client waits for the answer */
+	int timeout_ms;            /* how long a client waits for the (first) answer */
 };
 
 /* Indexed by enum control_kind. */
@@ -38,7 +41,7 @@ extern const struct control_command control_commands[CONTROL_KIND_COUNT];
 
 const struct control_command *control_command_find(const char *name);
 
-/* "status, panic, preset NAME, root TONE or reload" into buf */
+/* "status, panic, preset NAME, root TONE, reload or subscribe" into buf */
 char *control_command_list(char *buf, size_t size);
 
 /*

@@ -202,6 +202,17 @@ static int client_id(const struct control_server *s, int slot)
 	return slot + CONTROL_CLIENTS_MAX * (int)s->clients[slot].generation;
 }
 
+/* The client an id names, or NULL if it left (its slot free or reused). */
+static struct control_client *client_of(struct control_server *s, int id)
+{
+	if (id < 0)
+		return NULL;
+	struct control_client *c = &s->clients[id % CONTROL_CLIENTS_MAX];
+	if (c->fd < 0 || (unsigned)(id / CONTROL_CLIENTS_MAX) != c->generation)
+		return NULL; /* it left */
+	return c;
+}
+
 static bool has_output(const struct control_client *c)
 {
 	return c->out_sent < c->out_length;
@@ -209,7 +220,7 @@ static bool has_output(const struct control_client *c)
 
 static bool evictable(const struct control_client *c, int64_t now_ms)
 {
-	return !c->waiting && now_ms - c->last_active_ms >= CONTROL_EVICT_MS;
+	return !c->waiting && !c->subscriber && now_ms - c->last_active_ms >= CONTROL_EVICT_MS;
 }
 
 /* A free slot, else the one idle longest if idle long enough (*evict), else -1. */
@@ -253,8 +264,10 @@ static void queue_line(struct control_client *c, const char *line, size_t length
 		return;
 	if (pending > 0 && pending + length + 1 > CONTROL_OUT_MAX) {
 		log_print(LOG_LEVEL_WARNING,
-			  "control: client %lu (pid %ld, uid %ld) dropped: it does not read its replies (%zu bytes waiting, at most %d)",
-			  c->number, c->pid, c->uid, pending, CONTROL_OUT_MAX);
+			  "control: %s %lu (pid %ld, uid %ld) dropped: %s (%zu bytes waiting, at most %d)",
+			  c->subscriber ? "subscriber" : "client", c->number, c->pid, c->uid,
+			  c->subscriber ? "it fell behind the events" : "it does not read its replies",
+			  pending, CONTROL_OUT_MAX);
 		c->broken = true;
 		return;
 	}
@@ -341,6 +354,11 @@ static void take_lines(struct control_server *s, int slot, control_request_fn fn
 		       int64_t now_ms)
 {
 	struct control_client *c = &s->clients[slot];
+	if (c->subscriber) {
+		c->in_length = 0; /* it only listens: what it sends is dropped */
+		c->skipping = false;
+		return;
+	}
 	while (!c->waiting && !c->broken) {
 		char *newline = memchr(c->in, '\n', c->in_length);
 		size_t length;
@@ -375,6 +393,8 @@ static void take_lines(struct control_server *s, int slot, control_request_fn fn
 		}
 		memmove(c->in, c->in + used, c->in_length - used);
 		c->in_length -= used;
+		if (c->subscriber)
+			c->in_length = 0; /* it just subscribed: the rest is dropped */
 	}
 }
 
@@ -422,8 +442,13 @@ static void settle(struct control_server *s, int64_t now_ms)
 		int64_t quiet = now_ms - c->last_active_ms;
 		if (c->broken) {
 			close_client(c);
+		} else if (c->subscriber && c->input_done) {
+			log_closed(c, "the subscriber hung up");
+			close_client(c);
 		} else if (c->input_done && !c->waiting && !has_output(c)) {
 			close_client(c);
+		} else if (c->subscriber) {
+			continue; /* no idle limit: it listens */
 		} else if (!c->waiting && quiet >= CONTROL_IDLE_MS) {
 			log_closed(c, has_output(c) ? "it stopped reading its replies" : "no request for 10 s");
 			close_client(c);
@@ -466,7 +491,7 @@ int control_server_timeout_ms(const struct control_server *s, int64_t now_ms)
 		full = full && s->clients[i].fd >= 0;
 	for (int i = 0; i < CONTROL_CLIENTS_MAX; i++) {
 		const struct control_client *c = &s->clients[i];
-		if (c->fd < 0)
+		if (c->fd < 0 || c->subscriber)
 			continue;
 		int64_t at = c->last_active_ms + (c->waiting ? CONTROL_WAIT_MS : CONTROL_IDLE_MS);
 		/* once it can be evicted the listening socket is polled: no timer then */
@@ -520,14 +545,64 @@ void control_server_service(struct control_server *s, const struct pollfd *fds, 
 
 void control_server_reply(struct control_server *s, int id, const char *line)
 {
-	if (id < 0)
-		return;
-	int slot = id % CONTROL_CLIENTS_MAX;
-	struct control_client *c = &s->clients[slot];
-	if (c->fd < 0 || (unsigned)(id / CONTROL_CLIENTS_MAX) != c->generation)
+	struct control_client *c = client_of(s, id);
+	if (!c)
 		return; /* it left */
 	c->waiting = false;
 	queue_line(c, line, strlen(line));
+}
+
+/* ---- subscribers ---------------------------------------------------------- */
+
+bool control_server_subscribe(struct control_server *s, int id)
+{
+	struct control_client *c = client_of(s, id);
+	if (!c || control_server_subscribers(s) >= CONTROL_SUBSCRIBERS_MAX)
+		return false;
+	c->subscriber = true;
+	c->fed = false;
+	c->waiting = false; /* answered by what is published */
+	log_print(LOG_LEVEL_INFO, "control: client %lu (pid %ld, uid %ld) subscribed", c->number,
+		  c->pid, c->uid);
+	return true;
+}
+
+int control_server_subscribers(const struct control_server *s)
+{
+	int n = 0;
+	for (int i = 0; i < CONTROL_CLIENTS_MAX; i++)
+		n += s->clients[i].fd >= 0 && s->clients[i].subscriber;
+	return n;
+}
+
+void control_server_publish(struct control_server *s, const char *line)
+{
+	size_t length = strlen(line);
+	for (int i = 0; i < CONTROL_CLIENTS_MAX; i++) {
+		struct control_client *c = &s->clients[i];
+		if (c->fd >= 0 && c->subscriber && c->fed)
+			queue_line(c, line, length);
+	}
+}
+
+void control_server_publish_state(struct control_server *s, const char *line, bool everyone)
+{
+	size_t length = strlen(line);
+	for (int i = 0; i < CONTROL_CLIENTS_MAX; i++) {
+		struct control_client *c = &s->clients[i];
+		if (c->fd < 0 || !c->subscriber || (c->fed && !everyone))
+			continue;
+		queue_line(c, line, length);
+		c->fed = true;
+	}
+}
+
+void control_server_flush(struct control_server *s)
+{
+	int64_t now = 0;
+	for (int i = 0; i < CONTROL_CLIENTS_MAX; i++)
+		if (s->clients[i].fd >= 0 && has_output(&s->clients[i]) && !s->clients[i].broken)
+			write_out(&s->clients[i], now);
 }
 
 void control_server_close(struct control_server *s)

@@ -27,6 +27,14 @@
  * progress is closed after CONTROL_IDLE_MS without a request, and when
  * the table is full a client idle for CONTROL_EVICT_MS makes room for a
  * new one, so idle connections cannot keep `latticed panic` out.
+ *
+ * Subscribers (`subscribe`, subscription.c): a client the daemon made a
+ * subscriber gets no more replies, only the lines published to it; what
+ * it sends afterwards is read and dropped, and closing its end ends the
+ * subscription.  It is exempt from the idle timeout and never evicted, so
+ * at most CONTROL_SUBSCRIBERS_MAX clients may subscribe and the rest of
+ * the table stays free for commands; one that lets CONTROL_OUT_MAX bytes
+ * pile up is dropped with one log line, like any client that stops reading.
  */
 #ifndef LATTICED_CONTROL_SERVER_H
 #define LATTICED_CONTROL_SERVER_H
@@ -44,6 +52,7 @@
 #define CONTROL_OUT_MAX (256 * 1024)
 #define CONTROL_IDLE_MS 10000
 #define CONTROL_EVICT_MS 500
+#define CONTROL_SUBSCRIBERS_MAX 8
 /* connections waiting to be accepted; the kernel caps it at net.core.somaxconn */
 #define CONTROL_BACKLOG 4096
 
@@ -58,6 +67,8 @@ struct control_client {
 	bool input_done;                 /* end of file: no more requests */
 	bool waiting;                    /* a request handed out, its reply not yet queued */
 	bool broken;                     /* to be closed at the end of this service round */
+	bool subscriber;                 /* takes published lines, no replies */
+	bool fed;                        /* a subscriber that has had its first state */
 	char *out;                       /* replies not yet written (malloc) */
 	size_t out_length, out_sent, out_capacity;
 	int64_t last_active_ms;          /* connect, last request taken, last reply byte out */
@@ -97,6 +108,24 @@ void control_server_service(struct control_server *s, const struct pollfd *fds, 
 /* Queues one reply line (a newline is added) for the client; ignored if it left.
  * The bytes go out in the next control_server_service. */
 void control_server_reply(struct control_server *s, int id, const char *line);
+
+/* Makes client id a subscriber (its request is answered by the lines
+ * published from now on); false if it left or CONTROL_SUBSCRIBERS_MAX
+ * clients subscribe already. */
+bool control_server_subscribe(struct control_server *s, int id);
+
+/* Subscribers now (the ones closed in the last service round are gone). */
+int control_server_subscribers(const struct control_server *s);
+
+/* Queues line for every subscriber that has had its state. */
+void control_server_publish(struct control_server *s, const char *line);
+
+/* Queues a state line for the subscribers that have had none yet (every
+ * subscriber if everyone), which then take the published lines. */
+void control_server_publish_state(struct control_server *s, const char *line, bool everyone);
+
+/* Writes what is queued for every client once, without waiting (shutdown). */
+void control_server_flush(struct control_server *s);
 
 /* Closes every client and the socket, and removes the socket file if it is still ours. */
 void control_server_close(struct control_server *s);

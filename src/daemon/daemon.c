@@ -283,6 +283,9 @@ static void main_loop(struct daemon *d)
 		int state_ms = daemon_state_timeout_ms(d);
 		if (state_ms >= 0 && state_ms < timeout_ms)
 			timeout_ms = state_ms;
+		int events_ms = subscription_timeout_ms(d, monotonic_ms());
+		if (events_ms >= 0 && events_ms < timeout_ms)
+			timeout_ms = events_ms;
 		if (d->panic_pending)
 			timeout_ms = 1; /* the request queue was full: try again soon */
 		struct timespec timeout = {timeout_ms / 1000, (long)(timeout_ms % 1000) * 1000000L};
@@ -292,6 +295,7 @@ static void main_loop(struct daemon *d)
 		signal_panic(d);
 		daemon_drain_logs(d);
 		daemon_handle_replies(d);
+		subscription_service(d);
 		/* every turn, polled or not: it also writes the replies just queued and closes idle clients */
 		control_server_service(&d->control, fds + 1, n - 1, daemon_on_request, d, monotonic_ms());
 		if (reload_requested) {
@@ -310,8 +314,14 @@ static bool set_up_plumbing(struct daemon *d, char *err, size_t err_size)
 	d->messages = malloc(sizeof *d->messages);
 	d->in = calloc(1, sizeof *d->in);
 	d->out = calloc(1, sizeof *d->out);
+	d->subs = malloc(sizeof *d->subs);
 	d->main_wake_fd = make_eventfd();
-	if (!d->messages || !d->in || !d->out || d->main_wake_fd < 0) {
+	if (d->subs && !subscription_init(d->subs, d->cfg)) {
+		subscription_free(d->subs);
+		free(d->subs);
+		d->subs = NULL;
+	}
+	if (!d->messages || !d->in || !d->out || !d->subs || d->main_wake_fd < 0) {
 		snprintf(err, err_size, "cannot set up: %s", strerror(errno ? errno : ENOMEM));
 		return false;
 	}
@@ -331,6 +341,7 @@ static bool set_up_plumbing(struct daemon *d, char *err, size_t err_size)
 	if (d->watchdog_usec && d->watchdog_usec / 8000 < (uint64_t)d->in->heartbeat_ms)
 		d->in->heartbeat_ms = (int)(d->watchdog_usec / 8000) > 0 ? (int)(d->watchdog_usec / 8000) : 1;
 	d->in->messages = d->messages;
+	d->in->events = &d->subs->ring;
 	d->in->output = d->out;
 	d->in->output_wake_fd = d->out->wake_fd;
 	d->in->main_wake_fd = d->main_wake_fd;
@@ -397,6 +408,7 @@ static void stop_after_signal(struct daemon *d)
 	notify_stopping();
 	log_print(LOG_LEVEL_NOTICE, "%s: ending every note and stopping",
 		  quit_requested == SIGINT ? "SIGINT" : "SIGTERM");
+	subscription_shutdown(d);
 	stop_threads(d);
 	daemon_state_save(d, true);
 	log_print(LOG_LEVEL_NOTICE, "stopped");
@@ -417,6 +429,9 @@ static void free_plumbing(struct daemon *d)
 		d->tunings = d->in->tunings;
 	free(d->in);
 	free(d->out);
+	if (d->subs)
+		subscription_free(d->subs);
+	free(d->subs);
 }
 
 int daemon_run(const struct daemon_options *options)

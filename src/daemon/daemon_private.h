@@ -2,7 +2,7 @@
  * daemon_private: the main thread's state, shared by the files of
  * `latticed run`'s main thread (daemon.c: start-up, the loop, teardown;
  * daemon_reload.c: reloads; daemon_requests.c: control requests and the
- * input thread's replies).  One owner: the main thread.
+ * input thread's replies; subscription.c: subscribers).  One owner: the main thread.
  */
 #ifndef LATTICED_DAEMON_PRIVATE_H
 #define LATTICED_DAEMON_PRIVATE_H
@@ -20,6 +20,7 @@
 #include "output_thread.h"
 #include "request.h"
 #include "state_file.h"
+#include "subscription.h"
 
 struct daemon {
 	const struct daemon_options *options;
@@ -32,6 +33,7 @@ struct daemon {
 	struct input_thread *in;
 	struct output_thread *out;
 	struct control_server control;
+	struct subscription *subs;           /* subscribers' picture and event ring */
 	int main_wake_fd;
 	bool threads_running;
 	int64_t started_ms;

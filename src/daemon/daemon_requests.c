@@ -88,6 +88,8 @@ void daemon_on_request(void *context, int id, const char *line)
 		post_or_fail(d, id, &r);
 	} else if (kind == CONTROL_RELOAD) {
 		daemon_start_reload(d, id);
+	} else if (kind == CONTROL_SUBSCRIBE) {
+		subscription_request(d, id);
 	} else {
 		char quoted[80], text[sizeof quoted + 224], known[128];
 		snprintf(text, sizeof text, "unknown request '%s', expected %s",

@@ -42,6 +42,10 @@ void draw_heading(char *buf, size_t size, const struct lattice *lat);
 void draw_subheading(char *buf, size_t size, const struct config *cfg, int preset,
 		     const struct lattice *lat);
 
+/* The lattice drawing's stylesheet (rules scoped to .latticed-lattice), for
+ * a page that shows the drawing inline and serves the style itself. */
+const char *draw_lattice_style(void);
+
 /* The writers; 0, or -1 when memory ran out.  Output goes to f. */
 int draw_lattice_svg(FILE *f, const struct config *cfg, int preset, const struct tuning *t);
 int draw_keys_svg(FILE *f, const struct config *cfg, int preset, const struct tuning *t,

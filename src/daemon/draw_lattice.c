@@ -72,6 +72,11 @@ static const char patterns[] =
 	"<circle cx=\"7\" cy=\"7\" r=\"2.2\" fill=\"#1646b8\" fill-opacity=\"0.5\"/></pattern>\n"
 	"</defs>\n";
 
+const char *draw_lattice_style(void)
+{
+	return style;
+}
+
 /* Where things go on the page: layout units to px. */
 struct frame {
 	double scale;

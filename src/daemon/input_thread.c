@@ -26,6 +26,7 @@
 #include "input_feed.h"
 #include "input_status.h"
 #include "clock.h"
+#include "event_ring.h"
 #include "latticed/midi_encoder.h"
 #include "latticed/passthrough.h"
 #include "notice_text.h"
@@ -59,7 +60,8 @@ static void note_queue_drop(struct input_thread *t, struct input_output *o)
  * and the output thread is idle: no hand-over on the way of a live note. */
 static bool send_directly(struct input_thread *t, struct input_output *o, size_t length)
 {
-	if (msg_queue_fill(t->messages, o->index) != 0)
+	/* no output thread (a test driving the engines alone): queue */
+	if (t->output == NULL || msg_queue_fill(t->messages, o->index) != 0)
 		return false;
 	if (!t->borrowed && !output_thread_borrow(t->output))
 		return false;
@@ -191,6 +193,7 @@ bool input_thread_init(struct input_thread *t, const struct config *cfg,
 				 o->name, cerr.text);
 			return false;
 		}
+		engine_watch_notes(&o->engine, event_ring_watch, o);
 	}
 	for (int s = 0; s < MIDI_IO_MAX_SOURCES; s++)
 		midi_parser_init(&t->sources[s].parser, t->sources[s].sysex,
@@ -287,6 +290,7 @@ static void check_tuning_state(struct input_thread *t)
 	input_control_root_label(e, rep.root, sizeof rep.root);
 	snprintf(rep.text, sizeof rep.text, "preset %s, root %.240s", rep.preset, rep.root);
 	post_reply(t, &rep);
+	event_ring_tuning_changed(t);
 }
 
 static int find_preset(const struct engine_tunings *tunings, const struct request *r)
@@ -369,6 +373,7 @@ static void swap_tunings(struct input_thread *t, const struct request *r)
 	}
 	t->tunings = r->tunings;
 	t->reloads++;
+	event_ring_reloaded(t);
 	t->last_preset = -1; /* the same numbers may name another preset or tone now */
 	input_control_kept_text(kept, was_preset, was_root, first, kept_text, sizeof kept_text);
 	reply_done(t, r, true, "%d preset(s), %s", t->tunings->engine.count, kept_text);
@@ -570,6 +575,7 @@ void *input_thread_run(void *arg)
 		report_notices(t);
 		input_control_report(t);
 		check_tuning_state(t);
+		event_ring_service(t);
 		int64_t now = monotonic_ms();
 		if (t->retired_count && now - t->retired_checked_ms >= RETIRED_CHECK_MS) {
 			t->retired_checked_ms = now;

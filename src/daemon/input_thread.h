@@ -76,6 +76,7 @@
 #define INPUT_CUT_OFF_MS 1000
 
 struct output_thread;
+struct event_ring;
 
 struct input_output {                /* one output, as the input thread sees it */
 	struct input_thread *owner;
@@ -125,6 +126,7 @@ struct input_thread {
 	int main_wake_fd;                /* eventfd of the main thread */
 	int wake_fd;                     /* ours: a request is waiting */
 	int heartbeat_ms;                /* longest sleep */
+	struct event_ring *events;       /* what sounds, for subscribers (event_ring.h); may be NULL */
 	struct spsc_queue requests;      /* consumer side */
 	struct request request_slots[REQUEST_QUEUE_SLOTS];
 	struct spsc_queue replies;       /* producer side */

@@ -22,6 +22,9 @@
 #include "render_cmd.h"
 #include "table_cmd.h"
 #include "tuning.h"
+#ifdef LATTICED_HAVE_VIEW
+#include "view_cmd.h"
+#endif
 
 static const char default_config_path[] = LATTICED_SYSCONFDIR "/latticed/latticed.conf";
 
@@ -288,6 +291,19 @@ static int daemon_command(int argc, char **argv, const char *name)
 	return strcmp(name, "run") == 0 ? daemon_run(&o) : daemon_list_ports(&o);
 }
 
+static int command_view(int argc, char **argv)
+{
+#ifdef LATTICED_HAVE_VIEW
+	return view_cmd_run(argc, argv, default_config_path);
+#else
+	(void)argc;
+	(void)argv;
+	fprintf(stderr, "latticed view: this latticed was built without the live page; "
+		"build it with libmicrohttpd-dev installed (cmake -DLATTICED_VIEW=ON)\n");
+	return 1;
+#endif
+}
+
 static int command_run(int argc, char **argv)
 {
 	return daemon_command(argc, argv, "run");
@@ -324,6 +340,7 @@ static const struct command commands[] = {
 	{"table", command_table, "print the lattice, its chords and the key map", NULL},
 	{"render", command_render, "retune a MIDI file", NULL},
 	{"draw", command_draw, "draw the lattice or a keyboard chart as SVG", NULL},
+	{"view", command_view, "serve a live page of the running daemon (the lattice, lit)", NULL},
 };
 #define COMMAND_COUNT ((int)(sizeof commands / sizeof commands[0]))
 

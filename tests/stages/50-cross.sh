@@ -15,7 +15,7 @@
 # (cortex-a7, the smallest ARMv7 the armhf build targets) for armhf.
 . "$LATTICED_SOURCE_DIR/tests/stages/lib.sh"
 
-TARGET_LIBS="libasound2-dev libinih-dev libjson-c-dev libcmocka-dev libsystemd-dev libportmidi0"
+TARGET_LIBS="libasound2-dev libinih-dev libjson-c-dev libcmocka-dev libsystemd-dev libportmidi0 libmicrohttpd-dev"
 
 foreign=$(dpkg --print-foreign-architectures | tr "\n" " ")
 added=""

@@ -17,7 +17,7 @@ apt_install() {
 	${LATTICED_SUDO:-} env DEBIAN_FRONTEND=noninteractive apt-get -o DPkg::Lock::Timeout=600 install -y -qq --no-install-recommends $missing >/dev/null
 }
 
-BUILD_PACKAGES="build-essential cmake pkg-config python3 libinih-dev libjson-c-dev libcmocka-dev libsystemd-dev libasound2-dev libportmidi-dev"
+BUILD_PACKAGES="build-essential cmake pkg-config python3 libinih-dev libjson-c-dev libcmocka-dev libsystemd-dev libasound2-dev libportmidi-dev libmicrohttpd-dev"
 
 # cmake_build_test DIR [cmake args...]: configure, build warning-free, run ctest.
 # Extra ctest arguments (e.g. -LE host-only) come from $LATTICED_CTEST_ARGS.
