@@ -233,21 +233,29 @@ static void model_message(struct synth_model *s, uint8_t status, const uint8_t *
 				memset(c->latched, 0, sizeof c->latched);
 			model_end_ringing(c);
 			break;
-		case 120: /* all sound off: silence now */
+		case 120: /* all sound off: silence now, pedals or not (MIDI 1.0, channel mode messages) */
 			memset(c->ringing, 0, sizeof c->ringing);
 			for (int k = 0; k < 128; k++)
 				if (c->on[k])
 					model_violation(s, "all-sound-off over a note never turned off", ch, k);
+			/* the synth is silent either way: a pass-through source may send it */
+			memset(c->on, 0, sizeof c->on);
 			break;
 		case 121: /* reset all controllers: pedals up, bend centred */
 			c->sustain = c->sostenuto = false;
 			c->bend = 8192;
 			model_end_ringing(c);
 			break;
-		case 123:
+		case 123: /* all notes off: a note-off for every key, the pedals still hold (MIDI 1.0) */
+		case 124: /* omni off, omni on, mono, poly: each also ends every note (MIDI 1.0) */
+		case 125:
+		case 126:
+		case 127:
 			for (int k = 0; k < 128; k++)
-				if (c->on[k])
+				if (c->on[k]) {
 					model_violation(s, "all-notes-off over a note never turned off", ch, k);
+					model_note_off(s, ch, k);
+				}
 			break;
 		default:
 			break;
