@@ -46,6 +46,7 @@
 #include <sys/types.h>
 
 #include "control_path.h"
+#include "control_text.h"
 
 #define CONTROL_CLIENTS_MAX 32
 #define CONTROL_LINE_MAX 1024
@@ -129,10 +130,5 @@ void control_server_flush(struct control_server *s);
 
 /* Closes every client and the socket, and removes the socket file if it is still ours. */
 void control_server_close(struct control_server *s);
-
-/* Copies in into out (size bytes) as valid UTF-8 without control characters:
- * whatever is not becomes '?', and a character is never cut in two.  At most
- * max bytes of in are taken; "..." marks a cut.  Returns out. */
-char *control_text_copy(char *out, size_t size, const char *in, size_t max);
 
 #endif

@@ -155,6 +155,49 @@ static void set_system(snd_seq_event_t *ev, snd_seq_event_type_t type, int value
 	ev->data.control.value = value;
 }
 
+/* A system common or real-time status (one or two data bytes in a, b)
+ * as its sequencer event; false for a status the sequencer has none for. */
+static bool system_from_bytes(snd_seq_event_t *ev, uint8_t s, unsigned a, unsigned b)
+{
+	switch (s) {
+	case 0xF1:
+		set_system(ev, SND_SEQ_EVENT_QFRAME, (int)a);
+		return true;
+	case 0xF2:
+		set_system(ev, SND_SEQ_EVENT_SONGPOS, (int)(a | b << 7));
+		return true;
+	case 0xF3:
+		set_system(ev, SND_SEQ_EVENT_SONGSEL, (int)a);
+		return true;
+	case 0xF6:
+		set_system(ev, SND_SEQ_EVENT_TUNE_REQUEST, 0);
+		return true;
+	case 0xF8:
+		set_system(ev, SND_SEQ_EVENT_CLOCK, 0);
+		return true;
+	case 0xF9:
+		set_system(ev, SND_SEQ_EVENT_TICK, 0);
+		return true;
+	case 0xFA:
+		set_system(ev, SND_SEQ_EVENT_START, 0);
+		return true;
+	case 0xFB:
+		set_system(ev, SND_SEQ_EVENT_CONTINUE, 0);
+		return true;
+	case 0xFC:
+		set_system(ev, SND_SEQ_EVENT_STOP, 0);
+		return true;
+	case 0xFE:
+		set_system(ev, SND_SEQ_EVENT_SENSING, 0);
+		return true;
+	case 0xFF:
+		set_system(ev, SND_SEQ_EVENT_RESET, 0);
+		return true;
+	default:
+		return false;
+	}
+}
+
 bool seq_event_from_bytes(snd_seq_event_t *ev, const uint8_t *bytes, size_t length)
 {
 	if (length == 0)
@@ -198,43 +241,6 @@ bool seq_event_from_bytes(snd_seq_event_t *ev, const uint8_t *bytes, size_t leng
 		snd_seq_ev_set_pitchbend(ev, ch, (int)(a | b << 7) - BEND_CENTRE);
 		return true;
 	default:
-		break;
-	}
-	switch (s) {
-	case 0xF1:
-		set_system(ev, SND_SEQ_EVENT_QFRAME, (int)a);
-		return true;
-	case 0xF2:
-		set_system(ev, SND_SEQ_EVENT_SONGPOS, (int)(a | b << 7));
-		return true;
-	case 0xF3:
-		set_system(ev, SND_SEQ_EVENT_SONGSEL, (int)a);
-		return true;
-	case 0xF6:
-		set_system(ev, SND_SEQ_EVENT_TUNE_REQUEST, 0);
-		return true;
-	case 0xF8:
-		set_system(ev, SND_SEQ_EVENT_CLOCK, 0);
-		return true;
-	case 0xF9:
-		set_system(ev, SND_SEQ_EVENT_TICK, 0);
-		return true;
-	case 0xFA:
-		set_system(ev, SND_SEQ_EVENT_START, 0);
-		return true;
-	case 0xFB:
-		set_system(ev, SND_SEQ_EVENT_CONTINUE, 0);
-		return true;
-	case 0xFC:
-		set_system(ev, SND_SEQ_EVENT_STOP, 0);
-		return true;
-	case 0xFE:
-		set_system(ev, SND_SEQ_EVENT_SENSING, 0);
-		return true;
-	case 0xFF:
-		set_system(ev, SND_SEQ_EVENT_RESET, 0);
-		return true;
-	default:
-		return false;
+		return system_from_bytes(ev, s, a, b);
 	}
 }
