@@ -133,7 +133,10 @@ class Render:
 
 def fifo_reader(path, got, done):
     fd = os.open(path, os.O_RDONLY | os.O_NONBLOCK)   # does not wait for a writer
-    deadline = time.time() + 20
+    # longer than a render may take (r.run's 120 s): a reader that left
+    # first would leave the render waiting in open() for a reader forever,
+    # as a FIFO open does (fifo(7)), and fail a slow machine's run
+    deadline = time.time() + 150
     data, seen_writer = b"", False
     while time.time() < deadline:
         try:
