@@ -119,10 +119,7 @@ static enum MHD_Result serve_drawing(struct view_server *s, struct MHD_Connectio
 		free(svg);
 		return MHD_NO;
 	}
-	view_add_headers(r, "image/svg+xml", view_svg_policy);
-	enum MHD_Result ok = MHD_queue_response(c, MHD_HTTP_OK, r);
-	MHD_destroy_response(r);
-	return ok;
+	return view_queue(c, MHD_HTTP_OK, r, "image/svg+xml", view_svg_policy);
 }
 
 /* ---- control ---------------------------------------------------------------------------- */
@@ -293,13 +290,9 @@ static enum MHD_Result on_request(void *context, struct MHD_Connection *c, const
 	}
 	if (!get) {
 		struct MHD_Response *r = MHD_create_response_from_buffer(0, (void *)"", MHD_RESPMEM_PERSISTENT);
-		if (!r)
-			return MHD_NO;
-		view_add_headers(r, "text/plain", view_page_policy);
-		MHD_add_response_header(r, MHD_HTTP_HEADER_ALLOW, "GET, HEAD, POST");
-		enum MHD_Result ok = MHD_queue_response(c, MHD_HTTP_METHOD_NOT_ALLOWED, r);
-		MHD_destroy_response(r);
-		return ok;
+		if (r)
+			MHD_add_response_header(r, MHD_HTTP_HEADER_ALLOW, "GET, HEAD, POST");
+		return view_queue(c, MHD_HTTP_METHOD_NOT_ALLOWED, r, "text/plain", view_page_policy);
 	}
 	return route_get(s, c, url);
 }

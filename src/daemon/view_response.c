@@ -56,17 +56,23 @@ void view_add_headers(struct MHD_Response *r, const char *type, const char *poli
 	MHD_add_response_header(r, MHD_HTTP_HEADER_CACHE_CONTROL, "no-store");
 }
 
-enum MHD_Result view_send_copy(struct MHD_Connection *c, unsigned status, const char *type,
-			       const char *policy, const void *bytes, size_t length)
+enum MHD_Result view_queue(struct MHD_Connection *c, unsigned status, struct MHD_Response *r,
+			   const char *type, const char *policy)
 {
-	struct MHD_Response *r = MHD_create_response_from_buffer(length, (void *)bytes,
-								 MHD_RESPMEM_MUST_COPY);
 	if (!r)
 		return MHD_NO;
 	view_add_headers(r, type, policy);
 	enum MHD_Result ok = MHD_queue_response(c, status, r);
 	MHD_destroy_response(r);
 	return ok;
+}
+
+enum MHD_Result view_send_copy(struct MHD_Connection *c, unsigned status, const char *type,
+			       const char *policy, const void *bytes, size_t length)
+{
+	struct MHD_Response *r = MHD_create_response_from_buffer(length, (void *)bytes,
+								 MHD_RESPMEM_MUST_COPY);
+	return view_queue(c, status, r, type, policy);
 }
 
 enum MHD_Result view_send_text(struct MHD_Connection *c, unsigned status, const char *text)

@@ -21,6 +21,10 @@ extern const char view_svg_policy[];
 
 void view_add_headers(struct MHD_Response *r, const char *type, const char *policy);
 
+/* Adds the headers above to r, queues it with the status and lets go of
+ * it: every answer ends here.  MHD_NO when r is NULL (no memory). */
+enum MHD_Result view_queue(struct MHD_Connection *c, unsigned status, struct MHD_Response *r,
+			   const char *type, const char *policy);
 /* Queues a copy of bytes with the status and the headers above. */
 enum MHD_Result view_send_copy(struct MHD_Connection *c, unsigned status, const char *type,
 			       const char *policy, const void *bytes, size_t length);

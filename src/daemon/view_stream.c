@@ -132,14 +132,11 @@ enum MHD_Result view_stream_serve(struct view *v, struct MHD_Connection *c)
 	if (!take_stream(v)) {
 		struct MHD_Response *busy = MHD_create_response_from_buffer(
 			0, (void *)"", MHD_RESPMEM_PERSISTENT);
-		if (!busy)
-			return MHD_NO;
-		view_add_headers(busy, "text/plain", view_page_policy);
-		MHD_add_response_header(busy, MHD_HTTP_HEADER_CONNECTION, "close"); /* free the place now */
-		MHD_add_response_header(busy, MHD_HTTP_HEADER_RETRY_AFTER, "2");
-		enum MHD_Result ok = MHD_queue_response(c, MHD_HTTP_SERVICE_UNAVAILABLE, busy);
-		MHD_destroy_response(busy);
-		return ok;
+		if (busy) {
+			MHD_add_response_header(busy, MHD_HTTP_HEADER_CONNECTION, "close"); /* free the place now */
+			MHD_add_response_header(busy, MHD_HTTP_HEADER_RETRY_AFTER, "2");
+		}
+		return view_queue(c, MHD_HTTP_SERVICE_UNAVAILABLE, busy, "text/plain", view_page_policy);
 	}
 	/* a stream is quiet up to VIEW_KEEPALIVE_S between messages */
 	MHD_set_connection_option(c, MHD_CONNECTION_OPTION_TIMEOUT, (unsigned)VIEW_STREAM_IDLE_S);
@@ -164,9 +161,6 @@ enum MHD_Result view_stream_serve(struct view *v, struct MHD_Connection *c)
 		stream_free(st);
 		return MHD_NO;
 	}
-	view_add_headers(r, "text/event-stream; charset=utf-8", view_page_policy);
-	enum MHD_Result ok = MHD_queue_response(c, MHD_HTTP_OK, r);
-	MHD_destroy_response(r);
-	return ok;
+	return view_queue(c, MHD_HTTP_OK, r, "text/event-stream; charset=utf-8", view_page_policy);
 }
 
