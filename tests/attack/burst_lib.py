@@ -269,6 +269,9 @@ class FileTail:
         self.synth.feed(data)
 
 
+WIDE_PIPE_BYTES = 1 << 20  # Linux's pipe-max-size default (pipe(7))
+
+
 class FifoReader(threading.Thread):
     """A FIFO output read in the background, as a synth would; stall() stops
     reading (the pipe fills, the daemon's writes would block), resume()
@@ -350,7 +353,9 @@ OUTPUT_KEYS = {
 
 class Daemon:
     """latticed run --backend raw, input from a FIFO, outputs as given:
-    outputs = [(name, method, kind)], kind "file" or "fifo"."""
+    outputs = [(name, method, kind)], kind "file", "fifo" (a one-page pipe)
+    or "wide-fifo" (a pipe that holds a whole burst's answer, so a reader
+    slowed by a loaded machine never holds the daemon back)."""
 
     def __init__(self, binary, outputs, extra_input="", running_status=False, extra=""):
         self.binary = binary
@@ -363,8 +368,9 @@ class Daemon:
                 % (self.dir, self.dir, self.in_path, extra_input))
         self.outputs = []
         for name, method, kind in outputs:
-            path = os.path.join(self.dir, name + (".fifo" if kind == "fifo" else ".bin"))
-            if kind == "fifo":
+            fifo = kind in ("fifo", "wide-fifo")
+            path = os.path.join(self.dir, name + (".fifo" if fifo else ".bin"))
+            if fifo:
                 os.mkfifo(path)
             text += "[output %s]\n%sconnect = %s\n%s\n" % (
                 name, OUTPUT_KEYS[method], path,
@@ -380,7 +386,12 @@ class Daemon:
         for name, method, kind, path in self.outputs:
             synth = Synth(name, mpe_master=0 if method == "mpe" else None)
             self.synths[name] = synth
-            self.readers[name] = FifoReader(path, synth) if kind == "fifo" else FileTail(path, synth)
+            if kind == "fifo":
+                self.readers[name] = FifoReader(path, synth)
+            elif kind == "wide-fifo":
+                self.readers[name] = FifoReader(path, synth, WIDE_PIPE_BYTES)
+            else:
+                self.readers[name] = FileTail(path, synth)
         self.wait_ready()
         self.player = os.open(self.in_path, os.O_WRONLY)
 

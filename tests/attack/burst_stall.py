@@ -106,7 +106,9 @@ def round_two(d):
 
 
 def main():
-    d = Daemon(BIN, [("a", METHOD, "file"), ("b", METHOD, "fifo"), ("c", METHOD, "fifo")])
+    # b keeps reading through a wide pipe: what it plays depends on c's stall
+    # alone, not on how soon a loaded machine runs its reader
+    d = Daemon(BIN, [("a", METHOD, "file"), ("b", METHOD, "wide-fifo"), ("c", METHOD, "fifo")])
     try:
         d.settle()
         round_one(d)
