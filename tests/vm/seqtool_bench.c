@@ -1,7 +1,7 @@
 /*
  * seqtool_bench: the two commands of the latency benchmark (vm_latency).
  *
- *   seqtool forward [--name C] [--priority N]
+ *   seqtool forward [--name C] [--priority N] [--bend-before-notes]
  *   seqtool stream [OPTIONS] (--route NAME TO FROM | --direct NAME)...
  *
  * forward is the reference a live MIDI program is measured against: one
@@ -12,7 +12,11 @@
  * plain forwarder does), events from client 0 (subscription notices)
  * excepted.  It runs at SCHED_FIFO priority N (default 40, latticed's
  * default) with its memory locked, like latticed, and says on stderr if it
- * may not; it stops on SIGTERM or SIGINT.
+ * may not; it stops on SIGTERM or SIGINT.  With --bend-before-notes it
+ * also sends a pitch bend on the note's channel before every note-on (a
+ * new value each time), both in one write: the least any program costs
+ * that retunes by pitch bend, since MIDI 1.0 has a bend per channel and a
+ * note whose channel was bent for another pitch needs a new one first.
  *
  * stream plays a stream of note events into one or more routes and times
  * each event out of the other end.  The events are scheduled on our own
@@ -90,16 +94,22 @@ int cmd_forward(int argc, char **argv)
 {
 	const char *name = "forwarder";
 	long priority = 40;
+	bool bend_before_notes = false;
 
 	for (int i = 1; i < argc; i++) {
 		if (!strcmp(argv[i], "--name") && i + 1 < argc)
 			name = argv[++i];
 		else if (!strcmp(argv[i], "--priority") && i + 1 < argc)
 			priority = opt_long("--priority", argv[++i], 0, 99);
+		else if (!strcmp(argv[i], "--bend-before-notes"))
+			bend_before_notes = true;
 		else
-			die(EXIT_USAGE, "usage: seqtool forward [--name C] [--priority N]");
+			die(EXIT_USAGE, "usage: seqtool forward [--name C] [--priority N] [--bend-before-notes]");
 	}
 	catch_signals();
+	/* before the ports appear: a caller that waits for them then finds the
+	 * start-up (mlockall takes ~0.1 s of CPU under TCG) over */
+	go_realtime("forward", (int)priority);
 	snd_seq_t *seq = client_open(name);
 	int in = port_create(seq, "in", SND_SEQ_PORT_CAP_WRITE | SND_SEQ_PORT_CAP_SUBS_WRITE, -1);
 	int out = port_create(seq, "out", SND_SEQ_PORT_CAP_READ | SND_SEQ_PORT_CAP_SUBS_READ, -1);
@@ -110,8 +120,7 @@ int cmd_forward(int argc, char **argv)
 	if (!fds)
 		die(EXIT_FAIL, "out of memory");
 	snd_seq_poll_descriptors(seq, fds, (unsigned)nfds, POLLIN);
-	go_realtime("forward", (int)priority);
-	unsigned long forwarded = 0;
+	unsigned long forwarded = 0, bends = 0;
 	while (!stop_requested) {
 		snd_seq_event_t *ev;
 		int err = snd_seq_event_input(seq, &ev);
@@ -127,10 +136,24 @@ int cmd_forward(int argc, char **argv)
 		snd_seq_ev_set_source(ev, out);
 		snd_seq_ev_set_subs(ev);
 		snd_seq_ev_set_direct(ev);
+		if (bend_before_notes && ev->type == SND_SEQ_EVENT_NOTEON && ev->data.note.velocity > 0) {
+			snd_seq_event_t bend;
+			snd_seq_ev_clear(&bend);
+			snd_seq_ev_set_source(&bend, out);
+			snd_seq_ev_set_subs(&bend);
+			snd_seq_ev_set_direct(&bend);
+			/* a new value each note, within +-1 semitone at a 12-semitone range */
+			snd_seq_ev_set_pitchbend(&bend, ev->data.note.channel, (int)(bends % 1365) - 682);
+			if (snd_seq_event_output(seq, &bend) >= 0)
+				bends++;
+			if (snd_seq_event_output(seq, ev) >= 0 && snd_seq_drain_output(seq) >= 0)
+				forwarded++;
+			continue;
+		}
 		if (snd_seq_event_output_direct(seq, ev) >= 0)
 			forwarded++;
 	}
-	fprintf(stderr, "seqtool forward: %lu events forwarded\n", forwarded);
+	fprintf(stderr, "seqtool forward: %lu events forwarded, %lu bends added\n", forwarded, bends);
 	free(fds);
 	snd_seq_close(seq);
 	return 0;

@@ -6,6 +6,8 @@
 #   direct     a plain subscription (the kernel alone)
 #   forwarder  `seqtool forward`, one thread that reads an event and writes
 #              it (the reference: what any user-space program must cost)
+#   fwd-bend   the same forwarder sending a pitch bend before each note-on
+#              in the same write (what retuning by bend must cost at least)
 #   bend, mts, mpe  latticed run with latency.conf and each method
 # The routes take turns of 100 events in one stream, so whatever else the
 # host runs weighs on all of them alike.  The table (median and p99.9 of
@@ -24,8 +26,9 @@ cpu_ns() { cat /proc/"$1"/task/*/schedstat | awk '{ ns += $1 } END { printf "%.0
 
 vm_step "latency: the forwarder and one latticed per method"
 vm_start fwd seqtool forward
-routes="--direct direct --route forwarder forwarder:in forwarder:out"
-watch="forwarder:$vm_pid_fwd"
+vm_start fwdbend seqtool forward --name fwd-bend --bend-before-notes
+routes="--direct direct --route forwarder forwarder:in forwarder:out --route fwd-bend fwd-bend:in fwd-bend:out"
+watch="forwarder:$vm_pid_fwd fwd-bend:$vm_pid_fwdbend"
 for method in $METHODS; do
 	conf=/tmp/latency-$method.conf
 	# mts: each key on its own key, so held neighbours never share one
@@ -36,6 +39,7 @@ for method in $METHODS; do
 	routes="$routes --route $method latticed-$method:in latticed-$method:synth"
 done
 vm_check "the forwarder's ports appear" sh -c 'seqtool wait forwarder:out --seconds 20 >/dev/null'
+vm_check "the bending forwarder's ports appear" sh -c 'seqtool wait fwd-bend:out --seconds 20 >/dev/null'
 for method in $METHODS; do
 	vm_check "latticed's ports appear ($method)" \
 		sh -c "seqtool wait latticed-$method:synth --seconds 20 >/dev/null"
@@ -70,16 +74,19 @@ for method in $METHODS; do
 	vm_check "latticed stops cleanly ($method)" vm_stop "daemon_$method"
 done
 vm_check "the forwarder stops" vm_stop fwd
+vm_check "the bending forwarder stops" vm_stop fwdbend
 
 # The table: one line per route and rate; ratios to the forwarder at that rate.
 {
 	echo "# latency in the test VM under qemu TCG (code runs 10-50x slower than on real hardware):"
 	echo "# $COUNT note events per route and rate, the routes taking turns of 100, scheduled by"
 	echo "# the kernel and stamped by it at both ends, in ms; ratio: to the one-thread forwarder"
-	echo "# at the same rate; lost: never came back; other: messages besides the notes (bends,"
-	echo "# tuning changes); cpu: % of one core while streaming; idle: with no MIDI for ${IDLE_S} s"
-	printf '%-10s %6s %5s %9s %6s %9s %6s %9s %6s %6s %5s\n' route rate lost median ratio p99.9 ratio max \
-		other cpu% idle
+	echo "# at the same rate; ratio-fb: the median's ratio to fwd-bend, the forwarder that adds"
+	echo "# a pitch bend before each note-on; lost: never came back; other: messages besides the"
+	echo "# notes (bends, tuning changes); cpu: % of one core while streaming; idle: with no MIDI"
+	echo "# for ${IDLE_S} s"
+	printf '%-10s %6s %5s %9s %6s %9s %6s %8s %9s %6s %6s %5s\n' route rate lost median ratio p99.9 ratio \
+		ratio-fb max other cpu% idle
 	for rate in $RATES; do
 		awk -v rate="$rate" '
 			FILENAME ~ /idle/ { idle[$2] = $3; next }
@@ -87,15 +94,16 @@ vm_check "the forwarder stops" vm_stop fwd
 				med[$2] = $9; p[$2] = $10; max[$2] = $11 }
 			$1 == "cpu" { cpu[$2] = $4 }
 			END {
-				rm = med["forwarder"]; rp = p["forwarder"]
+				rm = med["forwarder"]; rp = p["forwarder"]; rb = med["fwd-bend"]
 				for (i = 1; i <= n; i++) {
 					r = name[i]
 					c = r in cpu ? cpu[r] : "-"
 					id = r in idle ? idle[r] : "-"
 					ratio_m = rm > 0 ? med[r] / rm : 0
 					ratio_p = rp > 0 ? p[r] / rp : 0
-					printf "%-10s %6d %5d %9.4f %6.2f %9.4f %6.2f %9.4f %6d %6s %5s\n", r, rate, lost[r],
-						med[r], ratio_m, p[r], ratio_p, max[r], other[r], c, id
+					ratio_b = rb > 0 ? med[r] / rb : 0
+					printf "%-10s %6d %5d %9.4f %6.2f %9.4f %6.2f %8.2f %9.4f %6d %6s %5s\n", r, rate,
+						lost[r], med[r], ratio_m, p[r], ratio_p, ratio_b, max[r], other[r], c, id
 				}
 				if (n == 0)
 					printf "%-10s %6d not measured (seqtool stream did not finish)\n", "all", rate
