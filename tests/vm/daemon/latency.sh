@@ -48,10 +48,12 @@ done
 
 # CPU use with no MIDI at all, once start-up is over
 sleep 2
-for w in $watch; do eval "idle0_${w%%:*}=$(cpu_ns "${w#*:}")"; done
+# a shell variable per route: its name with "-" made "_" (fwd-bend)
+var_of() { printf 'idle0_%s' "$1" | tr -- - _; }
+for w in $watch; do eval "$(var_of "${w%%:*}")=$(cpu_ns "${w#*:}")"; done
 sleep $IDLE_S
 for w in $watch; do
-	eval "t0=\$idle0_${w%%:*}"
+	eval "t0=\$$(var_of "${w%%:*}")"
 	awk -v a="$t0" -v b="$(cpu_ns "${w#*:}")" -v s=$IDLE_S -v m="${w%%:*}" \
 		'BEGIN { printf "idle %s %.2f\n", m, (b - a) / s / 1e7 }'
 done >"$OUT/idle.txt"
