@@ -54,12 +54,12 @@ class Subscriber:
     """One subscription and the picture its lines make (our rule: a state
     replaces everything; note_on adds, note_off removes, tuning replaces)."""
 
-    def __init__(self, daemon, rcvbuf=None):
+    def __init__(self, daemon, rcvbuf=None, request=b"subscribe"):
         self.sock = socket.socket(socket.AF_UNIX, socket.SOCK_STREAM)
         if rcvbuf:
             self.sock.setsockopt(socket.SOL_SOCKET, socket.SO_RCVBUF, rcvbuf)
         self.sock.connect(daemon.socket)
-        self.sock.sendall(b"subscribe\n")
+        self.sock.sendall(request + b"\n")
         self.buf = b""
         self.lines = []
         self.notes = {}
@@ -329,6 +329,70 @@ def check_flood(d, s):
         check("found the event ring full" in d.log_text(), "lost events are logged")
 
 
+def check_states(d, tab):
+    """`subscribe states` (latticed(8), "Subscribing"; our rule): the state
+    first, then a fresh state per change and no events, at most one every
+    20 ms however fast the notes come, the last change always told."""
+    bogus = Subscriber(d, request=b"subscribe everything")
+    bogus.read(1.0)
+    reply = bogus.lines[0] if bogus.lines else {}
+    check(reply.get("ok") is False and "states" in reply.get("error", ""),
+          "subscribe with an unknown word: an error naming states (%s)" % reply.get("error"))
+    bogus.close()
+    s = Subscriber(d, request=b"subscribe states")
+    s.wait(lambda s: s.states)
+    check(s.states and s.states[0].get("why") == "subscribed", "subscribe states: the first line is the state")
+    keys = chord_keys(tab)
+    d.play(on(keys))
+    s.wait(lambda s: s.keys() == sorted(keys))
+    check(s.keys() == sorted(keys) and s.states[-1].get("why") == "changed",
+          "a chord: a state (why changed) with its keys (%s)" % s.keys())
+    d.play(off(keys))
+    s.wait(lambda s: not s.notes)
+    check(not s.notes, "released: a state with nothing sounding")
+    s.lines.clear()
+    data = []
+    for i in range(2000):
+        k = 36 + i % 48
+        data += [0x90, k, 90, 0x80, k, 0]
+    t0 = time.time()
+    d.play(data)
+    d.wait_notes(lambda n: not n, 10)
+    s.wait(lambda s: s.lines and not s.notes, 10)
+    time.sleep(0.3)
+    s.read(0.2)
+    took = time.time() - t0
+    events = [m for m in s.lines if m.get("event") != "state"]
+    states = [m for m in s.lines if m.get("event") == "state"]
+    print("subscribe states, 2000 notes in one write: %d states in %.2f s, %d other lines"
+          % (len(states), took, len(events)))
+    check(not events, "no event lines to a subscriber of states (%s)" % events[:2])
+    check(states and len(states) <= took * 50 + 2,
+          "at most one state per 20 ms: %d states in %.2f s" % (len(states), took))
+    check(not s.notes, "the last state says nothing sounds, as the synth has it")
+    # notes a few milliseconds apart for a second: states keep coming, 50 a second at most
+    s.lines.clear()
+    t0 = time.time()
+    for i in range(300):
+        k = 48 + i % 24
+        d.play(on([k]) + off([k - 1 if i else k]))
+        time.sleep(0.003)
+    d.play(off(range(36, 84)))
+    d.wait_notes(lambda n: not n, 10)
+    s.wait(lambda s: s.lines and not s.notes, 10)
+    time.sleep(0.3)
+    s.read(0.2)
+    took = time.time() - t0
+    states = [m for m in s.lines if m.get("event") == "state"]
+    print("subscribe states, 300 notes 3 ms apart: %d states in %.2f s" % (len(states), took))
+    check(took * 5 <= len(states) <= took * 50 + 2,
+          "a state every 20 ms or more while notes keep coming: %d in %.2f s" % (len(states), took))
+    check(not s.notes, "and the last one says nothing sounds")
+    before = hangups(d)
+    s.close()
+    wait_hangups(d, before + 1)
+
+
 def check_resubscribe(d):
     d.play(on([60]))
     d.wait_notes(lambda n: len(n) == 1, 10)  # the daemon has played it: nobody saw it go by
@@ -352,13 +416,19 @@ def main():
         check_idle(d, s)
         check_slow_subscriber(d, s)
         check_flood(d, s)
+        check_states(d, tab)
         s.close()
         time.sleep(0.3)
         s = check_resubscribe(d)
+        st = Subscriber(d, request=b"subscribe states")
+        st.wait(lambda st: st.states)
         d.proc.send_signal(signal.SIGTERM)
         s.wait(lambda s: s.closed, 10)
+        st.wait(lambda st: st.closed, 10)
         check(s.lines and s.lines[-1].get("event") == "shutdown" and s.closed,
               "SIGTERM: the subscriber gets a shutdown event, then the end of the stream")
+        check(st.lines and st.lines[-1].get("event") == "shutdown" and st.closed,
+              "SIGTERM: a subscriber of states gets the shutdown event too")
         d.stop()
         if harness.FAILS:
             print(d.log_text())

@@ -125,6 +125,8 @@ static void notes_on_and_off_per_output(void **state)
 	(void)state;
 	struct ring_event ev[16];
 	activate();
+	assert_true(event_ring_idle(&ring)); /* the main thread sleeps: the note wakes it */
+	thread.wake_main = false;
 	play(0x90, 62, 100);
 	int n = take_all(ev, 16);
 	assert_int_equal(n, 2); /* one per output */
@@ -151,6 +153,38 @@ static void notes_on_and_off_per_output(void **state)
 	assert_int_equal(ev[0].note, id0);
 	assert_int_equal(ev[1].kind, RING_NOTE_OFF);
 	assert_int_equal(ev[1].note, id1);
+}
+
+/* Our rule (event_ring.h): the MIDI thread wakes the main thread once for
+ * the first event after the main thread found the ring empty, never per
+ * note, and an event that slips in while the main thread goes idle is not
+ * stranded: event_ring_idle says so. */
+static void main_woken_once_per_idle_spell(void **state)
+{
+	(void)state;
+	struct ring_event ev[16];
+	activate();
+	take_all(ev, 16);
+	assert_true(event_ring_idle(&ring));
+	thread.wake_main = false;
+	play(0x90, 60, 100);
+	assert_true(thread.wake_main);
+	thread.wake_main = false;
+	play(0x90, 64, 100);
+	play(0x80, 60, 0);
+	assert_false(thread.wake_main); /* the main thread has its timer by now */
+	assert_int_equal(take_all(ev, 16), 6);
+	assert_true(event_ring_idle(&ring));
+	play(0x80, 64, 0);
+	assert_true(thread.wake_main);
+	/* an event already there when the main thread would go idle */
+	thread.wake_main = false;
+	assert_false(event_ring_idle(&ring));
+	play(0x90, 67, 100);
+	assert_false(thread.wake_main);
+	assert_int_equal(take_all(ev, 16), 4);
+	play(0x80, 67, 0);
+	take_all(ev, 16);
 }
 
 static void overflow_then_one_sync(void **state)
@@ -250,6 +284,7 @@ int main(void)
 	const struct CMUnitTest tests[] = {
 		cmocka_unit_test(quiet_while_nobody_listens),
 		cmocka_unit_test(notes_on_and_off_per_output),
+		cmocka_unit_test(main_woken_once_per_idle_spell),
 		cmocka_unit_test(overflow_then_one_sync),
 		cmocka_unit_test(asked_sync_and_tuning),
 	};

@@ -28,8 +28,9 @@ const struct control_command control_commands[CONTROL_KIND_COUNT] = {
 			    "read the config again and apply its tunings (SIGHUP does the same)", 60000},
 	[CONTROL_SUBSCRIBE] = {CONTROL_SUBSCRIBE, "subscribe", NULL,
 			       "follow what sounds: a JSON line per event",
-			       "follow what sounds: the state first, then a JSON line per note, preset, root and reload",
-			       5000},
+			       "follow what sounds: the state first, then a JSON line per note, preset, root and reload "
+			       "(with states: a fresh state per change, at most 50 a second)",
+			       5000, "[" CONTROL_SUBSCRIBE_STATES "]"},
 };
 
 const struct control_command *control_command_find(const char *name)
@@ -47,8 +48,9 @@ char *control_command_list(char *list, size_t size)
 	for (int i = 0; i < CONTROL_KIND_COUNT; i++) {
 		const struct control_command *c = &control_commands[i];
 		const char *join = i == 0 ? "" : i + 1 == CONTROL_KIND_COUNT ? " or " : ", ";
+		const char *arg = c->arg ? c->arg : c->optional;
 		int n = snprintf(list + used, size - used, "%s%s%s%s", join, c->name,
-				 c->arg ? " " : "", c->arg ? c->arg : "");
+				 arg ? " " : "", arg ? arg : "");
 		if (n < 0 || (size_t)n >= size - used)
 			break;
 		used += (size_t)n;

@@ -4,8 +4,8 @@
  * Model: five commands (status, panic, preset NAME, root TONE, reload), each
  * a request word on the control socket and a `latticed` command of the
  * same name, and one request with no command of its own: subscribe, which
- * turns the connection into a stream of events (subscription.c; `latticed
- * view` is its client).  The table holds the word, the form of its argument, the
+ * turns the connection into a stream of events, or with `states` of states
+ * (subscription.c; `latticed view` is its client).  The table holds the word, the form of its argument, the
  * help texts and how long a client waits; the CLI (main.c), the client
  * (control_cmd.c) and the daemon (daemon.c) all read it, so a command is
  * added or renamed in one place.  A request is one line: the word, then
@@ -34,14 +34,18 @@ struct control_command {
 	const char *summary;       /* one line for `latticed --help` */
 	const char *help;          /* the first line of `latticed NAME --help` */
 	int timeout_ms;            /* how long a client waits for the (first) answer */
+	const char *optional;      /* an argument it may take, in usage texts ("[states]"), or NULL */
 };
+
+/* `subscribe states`: a fresh state per change instead of every event */
+#define CONTROL_SUBSCRIBE_STATES "states"
 
 /* Indexed by enum control_kind. */
 extern const struct control_command control_commands[CONTROL_KIND_COUNT];
 
 const struct control_command *control_command_find(const char *name);
 
-/* "status, panic, preset NAME, root TONE, reload or subscribe" into buf */
+/* "status, panic, preset NAME, root TONE, reload or subscribe [states]" into buf */
 char *control_command_list(char *buf, size_t size);
 
 /*

@@ -463,35 +463,52 @@ void control_server_reply(struct control_server *s, int id, const char *line)
 
 /* ---- subscribers ---------------------------------------------------------- */
 
-bool control_server_subscribe(struct control_server *s, int id)
+bool control_server_subscribe(struct control_server *s, int id, bool states_only)
 {
 	struct control_client *c = client_of(s, id);
 	if (!c || control_server_subscribers(s) >= CONTROL_SUBSCRIBERS_MAX)
 		return false;
 	c->subscriber = true;
+	c->states_only = states_only;
 	c->fed = false;
 	c->waiting = false; /* answered by what is published */
-	log_print(LOG_LEVEL_INFO, "control: client %lu (pid %ld, uid %ld) subscribed", c->number,
-		  c->pid, c->uid);
+	log_print(LOG_LEVEL_INFO, "control: client %lu (pid %ld, uid %ld) subscribed%s", c->number,
+		  c->pid, c->uid, states_only ? " to states" : "");
 	return true;
 }
 
 int control_server_subscribers(const struct control_server *s)
 {
+	return control_server_subscribers_of(s, false) + control_server_subscribers_of(s, true);
+}
+
+int control_server_subscribers_of(const struct control_server *s, bool states_only)
+{
 	int n = 0;
 	for (int i = 0; i < CONTROL_CLIENTS_MAX; i++)
-		n += s->clients[i].fd >= 0 && s->clients[i].subscriber;
+		n += s->clients[i].fd >= 0 && s->clients[i].subscriber &&
+		     s->clients[i].states_only == states_only;
 	return n;
 }
 
-void control_server_publish(struct control_server *s, const char *line)
+static void publish_to(struct control_server *s, const char *line, bool states_only)
 {
 	size_t length = strlen(line);
 	for (int i = 0; i < CONTROL_CLIENTS_MAX; i++) {
 		struct control_client *c = &s->clients[i];
-		if (c->fd >= 0 && c->subscriber && c->fed)
+		if (c->fd >= 0 && c->subscriber && c->fed && c->states_only == states_only)
 			queue_line(c, line, length);
 	}
+}
+
+void control_server_publish(struct control_server *s, const char *line)
+{
+	publish_to(s, line, false);
+}
+
+void control_server_publish_change(struct control_server *s, const char *line)
+{
+	publish_to(s, line, true);
 }
 
 void control_server_publish_state(struct control_server *s, const char *line, bool everyone)

@@ -70,6 +70,7 @@ struct control_client {
 	bool broken;                     /* to be closed at the end of this service round */
 	bool subscriber;                 /* takes published lines, no replies */
 	bool fed;                        /* a subscriber that has had its first state */
+	bool states_only;                /* `subscribe states`: a state per change, no events */
 	char *out;                       /* replies not yet written (malloc) */
 	size_t out_length, out_sent, out_capacity;
 	int64_t last_active_ms;          /* connect, last request taken, last reply byte out */
@@ -111,18 +112,24 @@ void control_server_service(struct control_server *s, const struct pollfd *fds, 
 void control_server_reply(struct control_server *s, int id, const char *line);
 
 /* Makes client id a subscriber (its request is answered by the lines
- * published from now on); false if it left or CONTROL_SUBSCRIBERS_MAX
+ * published from now on), of every event or (states_only) of a fresh state
+ * whenever what sounds changed; false if it left or CONTROL_SUBSCRIBERS_MAX
  * clients subscribe already. */
-bool control_server_subscribe(struct control_server *s, int id);
+bool control_server_subscribe(struct control_server *s, int id, bool states_only);
 
-/* Subscribers now (the ones closed in the last service round are gone). */
+/* Subscribers in all, and those of each kind. */
 int control_server_subscribers(const struct control_server *s);
+int control_server_subscribers_of(const struct control_server *s, bool states_only);
 
-/* Queues line for every subscriber that has had its state. */
+/* Queues an event line for every subscriber of events that has had its state. */
 void control_server_publish(struct control_server *s, const char *line);
 
+/* Queues a state line for the subscribers of states that have had their
+ * first one (what sounds changed). */
+void control_server_publish_change(struct control_server *s, const char *line);
+
 /* Queues a state line for the subscribers that have had none yet (every
- * subscriber if everyone), which then take the published lines. */
+ * subscriber of either kind if everyone), which then take the published lines. */
 void control_server_publish_state(struct control_server *s, const char *line, bool everyone);
 
 /* Writes what is queued for every client once, without waiting (shutdown). */

@@ -89,7 +89,14 @@ void daemon_on_request(void *context, int id, const char *line)
 	} else if (kind == CONTROL_RELOAD) {
 		daemon_start_reload(d, id);
 	} else if (kind == CONTROL_SUBSCRIBE) {
-		subscription_request(d, id);
+		if (arg[0] && strcmp(arg, CONTROL_SUBSCRIBE_STATES) != 0) {
+			char quoted[80], text[sizeof quoted + 96];
+			snprintf(text, sizeof text, "subscribe takes no word or '" CONTROL_SUBSCRIBE_STATES "', not '%s'",
+				 control_text_copy(quoted, sizeof quoted, arg, 64));
+			daemon_reply_simple(d, id, false, text);
+			return;
+		}
+		subscription_request(d, id, arg[0] != '\0');
 	} else {
 		char quoted[80], text[sizeof quoted + 224], known[128];
 		snprintf(text, sizeof text, "unknown request '%s', expected %s",

@@ -47,6 +47,17 @@ bool event_ring_take(struct event_ring *r, struct ring_event *out)
 	return spsc_queue_pop(&r->queue, out);
 }
 
+bool event_ring_idle(struct event_ring *r)
+{
+	atomic_store_explicit(&r->main_idle, true, memory_order_relaxed);
+	/* pairs with the fence in post(): either it sees main_idle, or we see its event */
+	atomic_thread_fence(memory_order_seq_cst);
+	if (spsc_queue_count(&r->queue) == 0)
+		return true;
+	atomic_store_explicit(&r->main_idle, false, memory_order_relaxed);
+	return false;
+}
+
 /* ---- the input thread's side ------------------------------------------------ */
 
 static bool posting(const struct input_thread *t)
@@ -63,7 +74,10 @@ static void post(struct input_thread *t, const struct ring_event *ev)
 		atomic_fetch_add_explicit(&r->lost, 1, memory_order_relaxed);
 		r->pending = true;
 	}
-	t->wake_main = true;
+	atomic_thread_fence(memory_order_seq_cst); /* pairs with event_ring_idle */
+	if (atomic_load_explicit(&r->main_idle, memory_order_relaxed) &&
+	    atomic_exchange_explicit(&r->main_idle, false, memory_order_relaxed))
+		t->wake_main = true;
 }
 
 static void note_event(struct ring_event *ev, int kind, int output, uint32_t generation,

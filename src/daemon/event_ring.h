@@ -17,8 +17,13 @@
  *
  * Nothing is posted while nobody subscribes (`active` false); the main
  * thread switches it on, asks for a sync (its picture is stale by then)
- * and wakes the input thread.  Between threads only `active`, `sync_asked`
- * and `lost` are shared, all atomics; `pending` is the input thread's own.
+ * and wakes the input thread.  The input thread wakes the main thread only
+ * for the first event after the ring was found empty (`main_idle`): the
+ * main thread then takes everything SUBSCRIPTION_DELAY_MS later on a timer
+ * of its own, so a chord or a burst costs the MIDI thread one wake-up, not
+ * a system call per note.  Between threads only `active`, `sync_asked`,
+ * `main_idle` and `lost` are shared, all atomics; `pending` is the input
+ * thread's own.
  * A note's generation is the number of reloads swapped in before it began
  * (the input thread's `reloads`), so a subscriber can tell which tunings
  * its preset and tone index refer to.
@@ -66,6 +71,7 @@ struct event_ring {
 	atomic_bool active;          /* main: somebody subscribes */
 	atomic_bool sync_asked;      /* main: post a sync */
 	atomic_uint_fast64_t lost;   /* input thread: pushes that found the ring full */
+	atomic_bool main_idle;       /* main: the ring was empty and it has no timer for it */
 	bool pending;                /* input thread: a sync is owed */
 };
 
@@ -82,6 +88,11 @@ void event_ring_activate(struct event_ring *r, bool on, int wake_fd);
 
 /* Main thread: the oldest event; false if none. */
 bool event_ring_take(struct event_ring *r, struct ring_event *out);
+
+/* Main thread, having found the ring empty and going to sleep without a
+ * timer for it: the next post wakes it.  False if an event came in the
+ * meantime (it is to be taken with the usual delay, no wake-up follows). */
+bool event_ring_idle(struct event_ring *r);
 
 /* Input thread: the engines' note watch (context: the struct input_output). */
 void event_ring_watch(void *context, bool sounding, const struct engine_note_info *note);

@@ -125,8 +125,9 @@ static void on_input(void *context, uint8_t source, const uint8_t *bytes, size_t
 		source = MIDI_IO_MAX_SOURCES - 1;
 	feed_input(t, source, bytes, length);
 	/* queued messages go before the parser reads on; what went straight to
-	 * the backend is flushed at the end of the batch (on_input_done) */
-	if (t->wake_output || t->wake_main)
+	 * the backend is flushed at the end of the batch (on_input_done), and
+	 * the main thread is woken then too, once the notes are out */
+	if (t->wake_output)
 		wake_others(t);
 }
 

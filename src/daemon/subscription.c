@@ -36,10 +36,14 @@ void subscription_free(struct subscription *s)
 static void publish(struct daemon *d, struct json_object *o, bool state)
 {
 	const char *line = json_object_to_json_string_ext(o, JSON_C_TO_STRING_PLAIN | JSON_C_TO_STRING_NOSLASHESCAPE);
-	if (state)
+	if (state) {
 		control_server_publish_state(&d->control, line, true);
-	else
+		/* the subscribers of states have it too */
+		d->subs->changed = false;
+		d->subs->state_sent_ms = monotonic_ms();
+	} else {
 		control_server_publish(&d->control, line);
+	}
 	json_object_put(o);
 }
 
@@ -76,6 +80,20 @@ static void add_tuning_fields(struct json_object *o, const struct subscription_t
 	json_object_object_add(o, "root", r);
 }
 
+/* The config's full path (a subscriber may run elsewhere: latticed view),
+ * looked up once per path rather than for every state. */
+static const char *full_config_path(const struct daemon *d)
+{
+	struct subscription *s = d->subs;
+	if (strcmp(s->config_from, d->config_path) != 0) {
+		char *full = realpath(d->config_path, NULL);
+		snprintf(s->config_full, sizeof s->config_full, "%s", full ? full : d->config_path);
+		snprintf(s->config_from, sizeof s->config_from, "%s", d->config_path);
+		free(full);
+	}
+	return s->config_full;
+}
+
 /* The whole picture: the first line a subscriber gets, and every resync. */
 static struct json_object *state_object(const struct daemon *d, const char *why, uint64_t lost)
 {
@@ -85,11 +103,8 @@ static struct json_object *state_object(const struct daemon *d, const char *why,
 	json_object_object_add(o, "event", json_object_new_string("state"));
 	json_object_object_add(o, "why", json_object_new_string(why));
 	json_object_object_add(o, "events_lost", json_object_new_int64((int64_t)lost));
-	/* a subscriber may run elsewhere (latticed view): the full path */
-	char *full = d->config_path[0] ? realpath(d->config_path, NULL) : NULL;
 	json_object_object_add(o, "config", !d->config_path[0] ? NULL
-			       : json_object_new_string(full ? full : d->config_path));
-	free(full);
+			       : json_object_new_string(full_config_path(d)));
 	add_tuning_fields(o, &s->tuning);
 	struct json_object *outputs = json_object_new_array();
 	for (int k = 0; k < s->output_count; k++) {
@@ -188,6 +203,7 @@ static void apply(struct daemon *d, const struct ring_event *ev, bool quiet)
 	}
 	if (!s->known && !s->in_sync)
 		return; /* from before the first sync: the sync will say it */
+	s->changed = true;
 	quiet = quiet || s->in_sync;
 	struct subscription_note n;
 	struct json_object *o = NULL;
@@ -216,10 +232,10 @@ static void apply(struct daemon *d, const struct ring_event *ev, bool quiet)
 
 /* ---- the main thread's calls --------------------------------------------------- */
 
-void subscription_request(struct daemon *d, int id)
+void subscription_request(struct daemon *d, int id, bool states_only)
 {
 	struct subscription *s = d->subs;
-	if (!s || !control_server_subscribe(&d->control, id)) {
+	if (!s || !control_server_subscribe(&d->control, id, states_only)) {
 		char text[96];
 		snprintf(text, sizeof text, "no room for another subscriber (at most %d)",
 			 CONTROL_SUBSCRIBERS_MAX);
@@ -242,6 +258,56 @@ void subscription_request(struct daemon *d, int id)
 	}
 }
 
+/* When the events waiting since waiting_since_ms are to be taken: after
+ * SUBSCRIPTION_DELAY_MS, and while only subscribers of states listen, not
+ * before their next state is due either (one wake-up per state, not one
+ * per few notes). */
+static int64_t events_due_ms(const struct daemon *d)
+{
+	const struct subscription *s = d->subs;
+	int64_t due = s->waiting_since_ms + SUBSCRIPTION_DELAY_MS;
+	if (s->known && !s->in_sync && control_server_subscribers_of(&d->control, false) == 0 &&
+	    s->state_sent_ms + SUBSCRIPTION_STATE_MS > due)
+		due = s->state_sent_ms + SUBSCRIPTION_STATE_MS;
+	return due;
+}
+
+/* The events due in the ring into the picture, and their lines to the
+ * subscribers of events (none are made while nobody takes them). */
+static void take_events(struct daemon *d, int64_t now)
+{
+	struct subscription *s = d->subs;
+	struct ring_event ev;
+	size_t waiting = spsc_queue_count(&s->ring.queue);
+	if (waiting && !s->waiting_since_ms)
+		s->waiting_since_ms = now;
+	if (waiting && now < events_due_ms(d) && waiting < EVENT_RING_SLOTS / 2)
+		return; /* not yet: the note is on its way out now (subscription.h) */
+	s->waiting_since_ms = 0;
+	/* a flood says itself more briefly as one fresh state */
+	bool coalesce = s->known && waiting > SUBSCRIPTION_LINES_MAX;
+	bool quiet = coalesce || control_server_subscribers_of(&d->control, false) == 0;
+	s->stated = false;
+	while (event_ring_take(&s->ring, &ev))
+		apply(d, &ev, quiet);
+	if (coalesce && !s->stated && s->known && !s->in_sync)
+		publish(d, state_object(d, "catching up",
+					atomic_load_explicit(&s->ring.lost, memory_order_relaxed)), true);
+	/* a sync the input thread owes comes sooner if it is woken now the ring is empty */
+	if (!s->known || atomic_load_explicit(&s->ring.lost, memory_order_relaxed) > s->lost_seen)
+		wake_fd_signal(d->in->wake_fd);
+	/* the next event wakes us; one that came meanwhile waits its delay */
+	if (!event_ring_idle(&s->ring))
+		s->waiting_since_ms = now;
+}
+
+/* Whether a state is owed to the subscribers of states. */
+static bool change_owed(const struct daemon *d)
+{
+	const struct subscription *s = d->subs;
+	return s->changed && s->known && !s->in_sync && control_server_subscribers_of(&d->control, true) > 0;
+}
+
 void subscription_service(struct daemon *d)
 {
 	struct subscription *s = d->subs;
@@ -256,36 +322,35 @@ void subscription_service(struct daemon *d)
 		while (event_ring_take(&s->ring, &ev))
 			; /* posted before it went off */
 		s->waiting_since_ms = 0;
+		s->changed = false;
 		return;
 	}
-	size_t waiting = spsc_queue_count(&s->ring.queue);
 	int64_t now = monotonic_ms();
-	if (waiting && !s->waiting_since_ms)
-		s->waiting_since_ms = now;
-	if (waiting && now - s->waiting_since_ms < SUBSCRIPTION_DELAY_MS &&
-	    waiting < EVENT_RING_SLOTS / 2)
-		return; /* not yet: the note is on its way out now (subscription.h) */
-	s->waiting_since_ms = 0;
-	/* a flood says itself more briefly as one fresh state */
-	bool coalesce = s->known && spsc_queue_count(&s->ring.queue) > SUBSCRIPTION_LINES_MAX;
-	s->stated = false;
-	while (event_ring_take(&s->ring, &ev))
-		apply(d, &ev, coalesce);
-	if (coalesce && !s->stated && s->known && !s->in_sync)
-		publish(d, state_object(d, "catching up",
-					atomic_load_explicit(&s->ring.lost, memory_order_relaxed)), true);
-	/* a sync the input thread owes comes sooner if it is woken now the ring is empty */
-	if (!s->known || atomic_load_explicit(&s->ring.lost, memory_order_relaxed) > s->lost_seen)
-		wake_fd_signal(d->in->wake_fd);
+	take_events(d, now);
+	if (change_owed(d) && now - s->state_sent_ms >= SUBSCRIPTION_STATE_MS) {
+		struct json_object *o = state_object(d, "changed",
+						     atomic_load_explicit(&s->ring.lost, memory_order_relaxed));
+		const char *line = json_object_to_json_string_ext(o, JSON_C_TO_STRING_PLAIN | JSON_C_TO_STRING_NOSLASHESCAPE);
+		control_server_publish_change(&d->control, line);
+		json_object_put(o);
+		s->changed = false;
+		s->state_sent_ms = now;
+	}
 }
 
 int subscription_timeout_ms(const struct daemon *d, int64_t now_ms)
 {
 	const struct subscription *s = d->subs;
-	if (!s || !s->waiting_since_ms)
+	if (!s)
 		return -1;
-	int64_t left = s->waiting_since_ms + SUBSCRIPTION_DELAY_MS - now_ms;
-	return left > 0 ? (int)left : 0;
+	int64_t due = -1;
+	if (s->waiting_since_ms)
+		due = events_due_ms(d);
+	if (change_owed(d) && (due < 0 || s->state_sent_ms + SUBSCRIPTION_STATE_MS < due))
+		due = s->state_sent_ms + SUBSCRIPTION_STATE_MS;
+	if (due < 0)
+		return -1;
+	return due > now_ms ? (int)(due - now_ms) : 0;
 }
 
 void subscription_shutdown(struct daemon *d)
@@ -295,6 +360,7 @@ void subscription_shutdown(struct daemon *d)
 	struct json_object *o = event_object("shutdown");
 	const char *line = json_object_to_json_string_ext(o, JSON_C_TO_STRING_PLAIN | JSON_C_TO_STRING_NOSLASHESCAPE);
 	control_server_publish(&d->control, line);
+	control_server_publish_change(&d->control, line);
 	control_server_publish_state(&d->control, line, false); /* those still waiting for a state too */
 	json_object_put(o);
 	control_server_flush(&d->control);

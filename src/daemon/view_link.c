@@ -15,6 +15,7 @@
 #include <unistd.h>
 
 #include "clock.h"
+#include "control_commands.h"
 #include "control_cmd.h"
 #include "log_ring.h"
 
@@ -157,7 +158,8 @@ static bool read_some(struct view_link *l, int fd, const char *path, bool *ended
 static void follow(struct view_link *l, struct view *v, int fd, const char *path,
 		   const sigset_t *run_mask, char *why, size_t why_size)
 {
-	static const char request[] = "subscribe\n";
+	/* the picture, not every event: at most 50 states a second (subscription.h) */
+	static const char request[] = "subscribe " CONTROL_SUBSCRIBE_STATES "\n";
 	l->length = 0;
 	if (send(fd, request, sizeof request - 1, MSG_NOSIGNAL) != (ssize_t)(sizeof request - 1)) {
 		snprintf(why, why_size, "latticed at %s took no request: %s", path, strerror(errno));
