@@ -25,7 +25,7 @@ METHODS="bend mts mpe"
 IDLE_S=5
 # Where each program runs.  Under TCG a route's latency depends by half on
 # which vCPU it and the player share (identical forwarders measured 0.09 ms
-# on one and 0.15 ms on the other in the same run), so every route runs on
+# on one and 0.12-0.15 ms on the other in the same run), so every route runs on
 # the second vCPU and seqtool stream on the first: each route is then
 # measured in the same place, and a ratio compares the programs' work.
 if [ "$(nproc)" -ge 2 ]; then
